@@ -1,0 +1,1 @@
+"""One module per command; each defines NAME, HELP, DESCRIPTION, add_arguments() and run()."""

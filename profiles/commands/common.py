@@ -1,0 +1,155 @@
+"""Options shared by the commands, defined once, and the steps every command takes.
+
+Every command that reads a survey accepts the same survey options (files, column names, CRS,
+lines, segmentation) and the same output options (``--json``, ``--out``, ``--overwrite``,
+``--quiet``, ``--strict``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from dataclasses import dataclass
+
+from ..columns import ColumnNames
+from ..errors import InputError
+from ..units import parse_length, parse_length_or_multiple
+
+
+def length(what: str):
+    """argparse type for a length with a unit, in metres."""
+
+    def parse(text: str) -> float:
+        try:
+            return parse_length(text, what=what)
+        except InputError as error:
+            raise argparse.ArgumentTypeError(str(error)) from None
+
+    parse.__name__ = "length"
+    return parse
+
+
+def gap_value(text: str):
+    """argparse type for ``--gap``: a multiple (``5x``) or a length (``3km``)."""
+    try:
+        return parse_length_or_multiple(text, what="--gap")
+    except InputError as error:
+        raise argparse.ArgumentTypeError(str(error)) from None
+
+
+def add_survey_arguments(parser: argparse.ArgumentParser, *, field: str | None = None) -> None:
+    """Survey files, column names, CRS, line selection and segmentation options.
+
+    ``field``: None (no field option), "optional" or "required".
+    """
+    parser.add_argument(
+        "survey",
+        nargs="+",
+        metavar="SURVEY",
+        help="survey files: CSV/TSV, GeoPackage, GeoJSON, Shapefile or GeoParquet",
+    )
+    if field == "required":
+        parser.add_argument("--field", required=True, help="field (column) to analyse, e.g. depth_m")
+    elif field == "optional":
+        parser.add_argument("--field", help="field (column) to analyse, e.g. depth_m")
+    group = parser.add_argument_group("survey columns and coordinates")
+    group.add_argument("--line-column", help="column holding the line id (default: found by name)")
+    group.add_argument("--lon-column", help="longitude column, or easting with --crs")
+    group.add_argument("--lat-column", help="latitude column, or northing with --crs")
+    group.add_argument("--time-column", help="time column (ISO 8601 or seconds)")
+    group.add_argument("--crs", help="CRS of projected coordinates, e.g. EPSG:32735")
+    group.add_argument("--layer", help="layer of a multi-layer GIS file")
+    group.add_argument(
+        "--line",
+        action="append",
+        dest="lines",
+        metavar="LINE",
+        help="analyse only this line (repeat for several)",
+    )
+    split = parser.add_argument_group("segments")
+    split.add_argument(
+        "--gap",
+        type=gap_value,
+        default=("multiple", 5.0),
+        help="split at steps longer than this: a multiple of the line's median "
+        "spacing (5x, the default) or a length (3km)",
+    )
+    split.add_argument(
+        "--turn-angle",
+        type=float,
+        default=45.0,
+        metavar="DEGREES",
+        help="split where the course changes by more than this (default 45)",
+    )
+    split.add_argument(
+        "--turn-distance",
+        type=length("--turn-distance"),
+        default=2000.0,
+        metavar="LENGTH",
+        help="distance over which course is averaged (default 2km)",
+    )
+
+
+def add_output_arguments(parser: argparse.ArgumentParser) -> None:
+    """``--json``, ``--out``, ``--overwrite``, ``--quiet``, ``--strict``."""
+    group = parser.add_argument_group("output")
+    group.add_argument("--json", action="store_true", help="print one JSON document on stdout")
+    group.add_argument("--out", metavar="DIR", help="write tables (CSV) and figures into DIR")
+    group.add_argument("--overwrite", action="store_true", help="replace existing outputs in DIR")
+    group.add_argument("--quiet", action="store_true", help="no progress or warnings on stderr")
+    group.add_argument("--strict", action="store_true", help="exit with status 1 when there are warnings")
+
+
+@dataclass(frozen=True)
+class Loaded:
+    """A survey read and segmented as the options ask."""
+
+    survey: object
+    segments: object
+    warnings: tuple[str, ...]
+
+
+def load(args: argparse.Namespace, *, fields: tuple[str, ...] | None = None) -> Loaded:
+    """Read the survey files and build segments, as the shared options say."""
+    from ..geometry import build_segments
+    from ..read import read_surveys
+
+    columns = ColumnNames(
+        line=args.line_column, lon=args.lon_column, lat=args.lat_column, time=args.time_column
+    )
+    survey = read_surveys(args.survey, columns=columns, fields=fields, crs=args.crs, layer=args.layer)
+    kind, value = args.gap
+    segments = build_segments(
+        survey,
+        gap_multiple=value if kind == "multiple" else 5.0,
+        gap_length=value if kind == "length" else None,
+        turn_angle=args.turn_angle,
+        turn_distance=args.turn_distance,
+    )
+    if args.lines:
+        known = set(segments.survey.lines)
+        missing = [line for line in args.lines if line not in known]
+        if missing:
+            raise InputError(
+                f"--line: no line {', '.join(missing)} in the survey; lines: {', '.join(sorted(known))}"
+            )
+        segments = segments.select(args.lines)
+    if len(segments) == 0:
+        raise InputError(f"{', '.join(args.survey)}: no segment with two or more stations")
+    return Loaded(segments.survey, segments, survey.warnings + segments.warnings)
+
+
+def report_warnings(args: argparse.Namespace, warnings) -> int:
+    """Print warnings on stderr (unless quiet); return the exit status they imply."""
+    warnings = list(dict.fromkeys(warnings))
+    if not args.quiet:
+        for message in warnings:
+            print(f"profiles: warning: {message}", file=sys.stderr)
+    return 1 if (warnings and args.strict) else 0
+
+
+def print_json(document) -> None:
+    """Print one JSON document on stdout."""
+    from ..outputs import json_text
+
+    sys.stdout.write(json_text(document))

@@ -1,0 +1,521 @@
+"""Track geometry: geodesic along-track distance, merging of repeated stations, segments.
+
+Distances are geodesics on the WGS84 ellipsoid computed with :class:`pyproj.Geod` (Karney
+2013, "Algorithms for geodesics", J. Geodesy 87, 43-55), which is right across the
+antimeridian and near the poles. Each survey is handled with one vectorised ``Geod.inv`` call
+over all consecutive station pairs; nothing loops per station.
+
+A line is split into segments
+
+* at gaps: a step longer than ``gap_multiple`` times the line's median step, or longer than
+  ``gap_length`` when that is given;
+* at sharp turns: where the mean course over ``turn_distance`` before a station and the mean
+  course over ``turn_distance`` after it differ by more than ``turn_angle`` degrees. Mean
+  courses are the directions of the summed step vectors (step length times the unit vector of
+  the step's forward azimuth), so station jitter does not trigger splits. Within a run of
+  stations above the threshold the line is split once, after the station with the largest
+  change of course.
+
+Stations closer than ``merge_tolerance`` to their predecessor on the same line are merged into
+it (field values averaged), because distance must increase strictly for interpolation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import lru_cache
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+from .survey import DROPPED, MERGED, Survey
+
+
+@lru_cache(maxsize=1)
+def wgs84():
+    """The WGS84 :class:`pyproj.Geod`, built once per process (pyproj objects are not shared
+    across processes or threads)."""
+    from pyproj import Geod
+
+    return Geod(ellps="WGS84")
+
+
+def geodesic_steps(lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Length (m) and forward azimuth (degrees) of each step between consecutive stations.
+
+    One vectorised ``pyproj.Geod.inv`` call on WGS84.
+    """
+    lon = np.asarray(lon, dtype=float)
+    lat = np.asarray(lat, dtype=float)
+    if lon.size < 2:
+        return np.zeros(0), np.zeros(0)
+    azimuth, _, length = wgs84().inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    return np.asarray(length, dtype=float), np.asarray(azimuth, dtype=float)
+
+
+def along_track_distance(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
+    """Cumulative geodesic distance (m) along a track, starting at 0.
+
+    Examples
+    --------
+    One degree of longitude along the equator is a * pi / 180 = 111 319.490793 m on WGS84:
+
+    >>> float(along_track_distance([0.0, 1.0], [0.0, 0.0])[-1])  # doctest: +ELLIPSIS
+    111319.49079...
+    """
+    length, _ = geodesic_steps(lon, lat)
+    return np.concatenate([[0.0], np.cumsum(length)])
+
+
+@dataclass(frozen=True, eq=False)
+class Segment:
+    """A stretch of one line without gaps or sharp turns.
+
+    Attributes
+    ----------
+    line : str
+        Line id.
+    number : int
+        Segment number within the line, from 1.
+    distance : ndarray
+        Along-line distance of each station (m), measured from the line's first station, so
+        segments of one line share one distance axis.
+    lon, lat : ndarray
+        Station positions (degrees).
+    values : dict of str to ndarray
+        Field values at the stations.
+    rows : ndarray
+        Input row (file line) of each station.
+    source : str
+        Input file.
+    azimuth_deg : float
+        Geodesic azimuth from the first to the last station, in [0, 360).
+    chord : float
+        Geodesic distance from the first to the last station (m).
+    """
+
+    line: str
+    number: int
+    distance: np.ndarray
+    lon: np.ndarray
+    lat: np.ndarray
+    values: dict[str, np.ndarray]
+    rows: np.ndarray
+    source: str
+    azimuth_deg: float
+    chord: float
+
+    @property
+    def n_stations(self) -> int:
+        """Number of stations."""
+        return int(self.distance.size)
+
+    @property
+    def start(self) -> float:
+        """Along-line distance of the first station (m)."""
+        return float(self.distance[0])
+
+    @property
+    def end(self) -> float:
+        """Along-line distance of the last station (m)."""
+        return float(self.distance[-1])
+
+    @property
+    def length(self) -> float:
+        """Along-track length (m)."""
+        return self.end - self.start
+
+    @property
+    def spacing(self) -> np.ndarray:
+        """Station spacing: the length of each step (m)."""
+        return np.diff(self.distance)
+
+    @property
+    def straightness(self) -> float:
+        """Chord over along-track length (1 for a straight line)."""
+        return self.chord / self.length if self.length > 0 else float("nan")
+
+    @property
+    def label(self) -> str:
+        """``line/segment``, e.g. ``"KR-03/2"``."""
+        return f"{self.line}/{self.number}"
+
+    def __str__(self) -> str:
+        return (
+            f"segment {self.label}: {self.n_stations} stations, "
+            f"{self.start / 1e3:.3f}-{self.end / 1e3:.3f} km, azimuth {self.azimuth_deg:.1f} deg"
+        )
+
+
+@dataclass(frozen=True)
+class Segments:
+    """The segments of a survey and the survey with updated row statuses.
+
+    Attributes
+    ----------
+    survey : Survey
+        The survey after merging repeated stations and dropping isolated ones.
+    segments : tuple of Segment
+        In survey order.
+    breaks : pandas.DataFrame
+        One row per split: line, distance_km, kind (``gap`` or ``turn``), size (gap length in
+        km or change of course in degrees), row (input row of the last station before it).
+    warnings : tuple of str
+        Things the user should know (lines that double back, isolated stations, ...).
+    """
+
+    survey: Survey
+    segments: tuple[Segment, ...]
+    breaks: pd.DataFrame
+    warnings: tuple[str, ...] = field(default=())
+
+    def __iter__(self):
+        return iter(self.segments)
+
+    def __len__(self) -> int:
+        return len(self.segments)
+
+    def select(self, lines) -> Segments:
+        """Only the segments of the given line ids."""
+        keep = set(lines)
+        return Segments(
+            self.survey,
+            tuple(s for s in self.segments if s.line in keep),
+            self.breaks[self.breaks["line"].isin(keep)],
+            self.warnings,
+        )
+
+
+@dataclass(frozen=True)
+class TrackSplit:
+    """Array-level result of :func:`split_tracks` (positions refer to the input arrays).
+
+    Attributes
+    ----------
+    kept : ndarray of int
+        Positions of stations kept (first of each run of repeated positions).
+    merged_into : ndarray of int
+        For every input position, the kept position it belongs to (itself when kept).
+    distance : ndarray
+        Along-line distance of each kept station (m).
+    step_azimuth : ndarray
+        Forward azimuth (degrees) of the step from each kept station to the next (NaN at the
+        last station of a line).
+    starts, stops : ndarray of int
+        Piece boundaries as positions into ``kept`` (stop exclusive).
+    break_after : ndarray of int
+        Positions into ``kept`` of the last station before each split within a line.
+    break_kind : ndarray of str
+        ``"gap"`` or ``"turn"`` for each split.
+    break_size : ndarray
+        Gap length (m) or change of course (degrees).
+    """
+
+    kept: np.ndarray
+    merged_into: np.ndarray
+    distance: np.ndarray
+    step_azimuth: np.ndarray
+    starts: np.ndarray
+    stops: np.ndarray
+    break_after: np.ndarray
+    break_kind: np.ndarray
+    break_size: np.ndarray
+
+
+def split_tracks(
+    line_codes: np.ndarray,
+    lon: np.ndarray,
+    lat: np.ndarray,
+    *,
+    gap_multiple: float = 5.0,
+    gap_length: float | None = None,
+    turn_angle: float = 45.0,
+    turn_distance: float = 2000.0,
+    merge_tolerance: float = 0.01,
+) -> TrackSplit:
+    """Merge repeated stations and split lines at gaps and sharp turns (pure arrays).
+
+    Parameters
+    ----------
+    line_codes : ndarray of int
+        Line of each station; stations of a line are contiguous and in survey order.
+    lon, lat : ndarray
+        Positions (degrees).
+    gap_multiple : float
+        A step longer than this multiple of the line's median step is a gap.
+    gap_length : float, optional
+        A step longer than this (m) is a gap; overrides ``gap_multiple``.
+    turn_angle : float
+        Change of mean course (degrees) that counts as a sharp turn.
+    turn_distance : float
+        Distance (m) over which the mean course before and after each station is taken.
+    merge_tolerance : float
+        Steps shorter than this (m) merge a station into its predecessor.
+
+    Returns
+    -------
+    TrackSplit
+    """
+    codes = np.asarray(line_codes)
+    n = codes.size
+    step, azimuth = geodesic_steps(lon, lat)
+    same_line = codes[1:] == codes[:-1]
+    repeat = same_line & (step < merge_tolerance)
+    is_kept = np.concatenate([[True], ~repeat]) if n else np.zeros(0, bool)
+    kept = np.flatnonzero(is_kept)
+    merged_into = kept[np.cumsum(is_kept) - 1] if n else np.zeros(0, np.intp)
+
+    # Steps between consecutive kept stations: the sum of the input steps between them (the
+    # skipped ones are shorter than the merge tolerance); azimuth of the last input step.
+    if kept.size >= 2:
+        cumulative = np.concatenate([[0.0], np.cumsum(step)])
+        kstep = cumulative[kept[1:]] - cumulative[kept[:-1]]
+        kazimuth = azimuth[kept[1:] - 1]
+        kcodes = codes[kept]
+        within = kcodes[1:] == kcodes[:-1]
+    else:
+        kstep = kazimuth = np.zeros(0)
+        kcodes = codes[kept]
+        within = np.zeros(0, bool)
+
+    # Along-line distance of kept stations.
+    along = np.concatenate([[0.0], np.cumsum(np.where(within, kstep, 0.0))]) if kept.size else np.zeros(0)
+    line_start = np.concatenate([[True], ~within]) if kept.size else np.zeros(0, bool)
+    first_of_line = (
+        np.maximum.accumulate(np.where(line_start, np.arange(kept.size), 0))
+        if kept.size
+        else np.zeros(0, int)
+    )
+    distance = along - along[first_of_line] if kept.size else along
+
+    # Gaps.
+    if gap_length is not None:
+        threshold = np.full(kstep.size, float(gap_length))
+    else:
+        median = pd.Series(np.where(within, kstep, np.nan)).groupby(kcodes[:-1]).transform("median")
+        threshold = gap_multiple * median.to_numpy(dtype=float)
+    gap = within & (kstep > threshold)
+
+    # Sharp turns, over all lines at once: an artificial jump at line ends and gaps keeps the
+    # course windows inside one piece.
+    valid_step = within & ~gap
+    jump = 10.0 * turn_distance
+    position = (
+        np.concatenate([[0.0], np.cumsum(np.where(valid_step, kstep, kstep + jump))])
+        if kept.size
+        else np.zeros(0)
+    )
+    rad = np.radians(kazimuth)
+    east = np.where(valid_step, kstep * np.sin(rad), 0.0)
+    north = np.where(valid_step, kstep * np.cos(rad), 0.0)
+    ce = np.concatenate([[0.0], np.cumsum(east)])
+    cn = np.concatenate([[0.0], np.cumsum(north)])
+    index = np.arange(kept.size)
+    lo = np.minimum(
+        np.searchsorted(position, position - turn_distance, side="left"), np.maximum(index - 1, 0)
+    )
+    hi = np.maximum(
+        np.searchsorted(position, position + turn_distance, side="right") - 1,
+        np.minimum(index + 1, kept.size - 1),
+    )
+    be, bn = ce - ce[lo], cn - cn[lo]
+    ae, an = ce[hi] - ce, cn[hi] - cn
+    cross = be * an - bn * ae
+    dot = be * ae + bn * an
+    has_both = (np.hypot(be, bn) > 0) & (np.hypot(ae, an) > 0)
+    change = np.where(has_both, np.degrees(np.arctan2(np.abs(cross), dot)), 0.0)
+    candidate = change > turn_angle
+    # Never split at the first or last station of a piece.
+    piece_edge = np.zeros(kept.size, bool)
+    if kept.size:
+        piece_edge[0] = piece_edge[-1] = True
+        piece_edge[1:][~valid_step] = True
+        piece_edge[:-1][~valid_step] = True
+    candidate &= ~piece_edge
+    turn_after = _run_maxima(candidate, change)
+
+    is_break = np.zeros(kstep.size, bool)
+    is_break[gap] = True
+    is_break[turn_after] = True
+    boundary = ~within | is_break
+    starts = np.concatenate([[0], np.flatnonzero(boundary) + 1]) if kept.size else np.zeros(0, int)
+    stops = np.concatenate([np.flatnonzero(boundary) + 1, [kept.size]]) if kept.size else np.zeros(0, int)
+
+    after = np.flatnonzero(within & is_break)
+    kind = np.where(gap[after], "gap", "turn")
+    size = np.where(gap[after], kstep[after], change[after])
+    return TrackSplit(
+        kept,
+        merged_into,
+        distance,
+        np.concatenate([kazimuth, [np.nan]]) if kept.size else kazimuth,
+        starts.astype(np.intp),
+        stops.astype(np.intp),
+        after,
+        kind,
+        size,
+    )
+
+
+def _run_maxima(candidate: np.ndarray, score: np.ndarray, tie: float = 0.5) -> np.ndarray:
+    """Position of the largest ``score`` in each run of consecutive ``candidate`` positions.
+
+    Where several positions of a run come within ``tie`` of its maximum (a plateau, as at a
+    reversal of course, where every station near the tip sees 180 degrees), the middle one of
+    them is taken.
+    """
+    where = np.flatnonzero(candidate)
+    if where.size == 0:
+        return where
+    run = np.concatenate([[0], np.cumsum(np.diff(where) > 1)])
+    best = pd.Series(score[where]).groupby(run).transform("max").to_numpy()
+    near = where[score[where] >= best - tie]
+    near_run = run[score[where] >= best - tie]
+    counts = np.bincount(near_run)
+    first = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    middle = first + (counts - 1) // 2
+    return near[middle[counts > 0]]
+
+
+def build_segments(
+    survey: Survey,
+    *,
+    gap_multiple: float = 5.0,
+    gap_length: float | None = None,
+    turn_angle: float = 45.0,
+    turn_distance: float = 2000.0,
+    merge_tolerance: float = 0.01,
+) -> Segments:
+    """Split the used stations of a survey into segments (see the module notes for the rules).
+
+    Stations at the position of their predecessor are marked ``merged`` (values averaged
+    into the kept station); stations left alone between two splits are dropped ("isolated
+    station"); a line with one station is dropped ("single-station line").
+
+    Returns
+    -------
+    Segments
+    """
+    if not gap_multiple > 1:
+        raise InputError(f"gap multiple must be greater than 1 (got {gap_multiple})")
+    if not 0 < turn_angle <= 180:
+        raise InputError(f"turn angle must be in (0, 180] degrees (got {turn_angle})")
+    stations = survey.stations
+    used_pos = np.flatnonzero(stations["status"].to_numpy() == "used")
+    used = stations.iloc[used_pos]
+    codes, line_names = pd.factorize(used["line"], sort=False)
+    lon = used["lon"].to_numpy(dtype=float)
+    lat = used["lat"].to_numpy(dtype=float)
+    split = split_tracks(
+        codes,
+        lon,
+        lat,
+        gap_multiple=gap_multiple,
+        gap_length=gap_length,
+        turn_angle=turn_angle,
+        turn_distance=turn_distance,
+        merge_tolerance=merge_tolerance,
+    )
+    rows = used["row"].to_numpy()
+    fields = survey.fields
+    values = {name: _merge_mean(used[name].to_numpy(dtype=float), split) for name in fields}
+
+    merged_pos = np.flatnonzero(split.merged_into != np.arange(len(used)))
+    new = survey
+    if merged_pos.size:
+        reasons = np.array(
+            [f"duplicate position of row {r}" for r in rows[split.merged_into[merged_pos]]], dtype=object
+        )
+        new = new.with_status(used_pos[merged_pos], MERGED, reasons)
+        kept_values = {name: values[name][split.kept] for name in fields}
+        new = new.replace_values(used_pos[split.kept], kept_values)
+
+    kept_rows = rows[split.kept]
+    kept_codes = codes[split.kept]
+    klon, klat = lon[split.kept], lat[split.kept]
+    lengths = split.stops - split.starts
+    warnings = []
+    lonely = np.flatnonzero(lengths == 1)
+    if lonely.size:
+        positions = split.starts[lonely]
+        line_sizes = np.bincount(kept_codes, minlength=len(line_names))
+        single_line = line_sizes[kept_codes[positions]] == 1
+        reasons = np.where(single_line, "single-station line", "isolated station between gaps")
+        new = new.with_status(used_pos[split.kept[positions]], DROPPED, reasons.astype(object))
+        for pos, single in zip(positions, single_line, strict=True):
+            name = line_names[kept_codes[pos]]
+            what = "has a single station" if single else "has a station isolated between gaps"
+            warnings.append(
+                f"{survey.stations['source'].iloc[used_pos[split.kept[pos]]]}: row "
+                f"{kept_rows[pos]}: line {name} {what}; dropped"
+            )
+
+    good = np.flatnonzero(lengths >= 2)
+    first = split.starts[good]
+    last = split.stops[good] - 1
+    azimuth, chord = _chords(klon[first], klat[first], klon[last], klat[last])
+    number_in_line = _count_within(kept_codes[first])
+    sources = stations["source"].to_numpy()[used_pos[split.kept]]
+    segments = []
+    for i, (a, b) in enumerate(zip(first, last + 1, strict=True)):
+        segments.append(
+            Segment(
+                line=str(line_names[kept_codes[a]]),
+                number=int(number_in_line[i]),
+                distance=split.distance[a:b],
+                lon=klon[a:b],
+                lat=klat[a:b],
+                values={name: values[name][split.kept[a:b]] for name in fields},
+                rows=kept_rows[a:b],
+                source=str(sources[a]),
+                azimuth_deg=float(azimuth[i]),
+                chord=float(chord[i]),
+            )
+        )
+
+    breaks = pd.DataFrame(
+        {
+            "line": [str(line_names[kept_codes[p]]) for p in split.break_after],
+            "distance_km": split.distance[split.break_after] / 1e3 if split.break_after.size else [],
+            "kind": split.break_kind,
+            "size": np.where(split.break_kind == "gap", split.break_size / 1e3, split.break_size),
+            "row": kept_rows[split.break_after],
+        }
+    )
+    for _, item in breaks[(breaks["kind"] == "turn") & (breaks["size"] > 150)].iterrows():
+        warnings.append(
+            f"line {item['line']} doubles back on itself at {item['distance_km']:.3f} km "
+            f"(row {item['row']}, course change {item['size']:.0f} deg); split there"
+        )
+    return Segments(new, tuple(segments), breaks, tuple(warnings))
+
+
+def _merge_mean(values: np.ndarray, split: TrackSplit) -> np.ndarray:
+    """Average values over each run of merged stations; result indexed like the input."""
+    if split.kept.size == values.size:
+        return values
+    finite = np.isfinite(values)
+    sums = np.bincount(split.merged_into, weights=np.where(finite, values, 0.0), minlength=values.size)
+    counts = np.bincount(split.merged_into, weights=finite.astype(float), minlength=values.size)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = sums / counts
+    out = values.copy()
+    out[split.kept] = np.where(counts[split.kept] > 0, mean[split.kept], np.nan)
+    return out
+
+
+def _chords(lon1, lat1, lon2, lat2) -> tuple[np.ndarray, np.ndarray]:
+    if len(lon1) == 0:
+        return np.zeros(0), np.zeros(0)
+    azimuth, _, chord = wgs84().inv(lon1, lat1, lon2, lat2)
+    return np.mod(np.asarray(azimuth), 360.0), np.asarray(chord)
+
+
+def _count_within(codes: np.ndarray) -> np.ndarray:
+    """1, 2, 3, ... within each run of equal codes."""
+    if codes.size == 0:
+        return codes
+    start = np.concatenate([[True], codes[1:] != codes[:-1]])
+    index = np.arange(codes.size)
+    return index - np.maximum.accumulate(np.where(start, index, 0)) + 1
