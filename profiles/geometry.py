@@ -7,8 +7,10 @@ over all consecutive station pairs; nothing loops per station.
 
 A line is split into segments
 
-* at gaps: a step longer than ``gap_multiple`` times the line's median step, or longer than
-  ``gap_length`` when that is given;
+* at gaps: a step longer than ``gap_multiple`` times the line's median step and than
+  ``gap_multiple`` times the median of the ten steps on either side (so a stretch logged more
+  coarsely stays one stretch, flagged by the spacing audit), or longer than ``gap_length``
+  when that is given;
 * at sharp turns: where the mean course over ``turn_distance`` before a station and the mean
   course over ``turn_distance`` after it differ by more than ``turn_angle`` degrees. Mean
   courses are the directions of the summed step vectors (step length times the unit vector of
@@ -31,30 +33,43 @@ import pandas as pd
 from .errors import InputError
 from .survey import DROPPED, MERGED, Survey
 
+#: Ellipsoid of every distance unless said otherwise.
+DEFAULT_ELLIPSOID = "WGS84"
 
-@lru_cache(maxsize=1)
-def wgs84():
-    """The WGS84 :class:`pyproj.Geod`, built once per process (pyproj objects are not shared
-    across processes or threads)."""
+
+@lru_cache(maxsize=8)
+def ellipsoid_geod(ellipsoid: str = DEFAULT_ELLIPSOID):
+    """A :class:`pyproj.Geod` for a PROJ ellipsoid name (``"WGS84"``, ``"GRS80"``, ``"bessel"``,
+    ``"intl"``, ...), built once per process: pyproj objects are not shared across processes
+    or threads."""
     from pyproj import Geod
 
-    return Geod(ellps="WGS84")
+    return Geod(ellps=ellipsoid)
 
 
-def geodesic_steps(lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def wgs84():
+    """The WGS84 :class:`pyproj.Geod` of this process."""
+    return ellipsoid_geod(DEFAULT_ELLIPSOID)
+
+
+def geodesic_steps(
+    lon: np.ndarray, lat: np.ndarray, *, ellipsoid: str = DEFAULT_ELLIPSOID
+) -> tuple[np.ndarray, np.ndarray]:
     """Length (m) and forward azimuth (degrees) of each step between consecutive stations.
 
-    One vectorised ``pyproj.Geod.inv`` call on WGS84.
+    One vectorised ``pyproj.Geod.inv`` call (Karney 2013) on the given ellipsoid.
     """
     lon = np.asarray(lon, dtype=float)
     lat = np.asarray(lat, dtype=float)
     if lon.size < 2:
         return np.zeros(0), np.zeros(0)
-    azimuth, _, length = wgs84().inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    azimuth, _, length = ellipsoid_geod(ellipsoid).inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
     return np.asarray(length, dtype=float), np.asarray(azimuth, dtype=float)
 
 
-def along_track_distance(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
+def along_track_distance(
+    lon: np.ndarray, lat: np.ndarray, *, ellipsoid: str = DEFAULT_ELLIPSOID
+) -> np.ndarray:
     """Cumulative geodesic distance (m) along a track, starting at 0.
 
     Examples
@@ -64,7 +79,7 @@ def along_track_distance(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
     >>> float(along_track_distance([0.0, 1.0], [0.0, 0.0])[-1])  # doctest: +ELLIPSIS
     111319.49079...
     """
-    length, _ = geodesic_steps(lon, lat)
+    length, _ = geodesic_steps(lon, lat, ellipsoid=ellipsoid)
     return np.concatenate([[0.0], np.cumsum(length)])
 
 
@@ -291,11 +306,9 @@ def split_tracks(
 
     # Gaps.
     if gap_length is not None:
-        threshold = np.full(kstep.size, float(gap_length))
+        gap = within & (kstep > float(gap_length))
     else:
-        median = pd.Series(np.where(within, kstep, np.nan)).groupby(kcodes[:-1]).transform("median")
-        threshold = gap_multiple * median.to_numpy(dtype=float)
-    gap = within & (kstep > threshold)
+        gap = _relative_gaps(kstep, within, kcodes, gap_multiple)
 
     # Sharp turns, over all lines at once: an artificial jump at line ends and gaps keeps the
     # course windows inside one piece.
@@ -356,6 +369,39 @@ def split_tracks(
         kind,
         size,
     )
+
+
+#: Steps on each side whose median is the local spacing a gap is judged against.
+LOCAL_STEPS = 10
+
+
+def _relative_gaps(step: np.ndarray, within: np.ndarray, codes: np.ndarray, multiple: float) -> np.ndarray:
+    """Steps longer than ``multiple`` times both the line's median step and the median of the
+    ``LOCAL_STEPS`` steps on either side (same line, the step itself excluded).
+
+    The local test keeps a stretch that was logged more coarsely (say every 2.5 km on a line
+    logged every 250 m) as one stretch, whose spacing the audit then flags, instead of letting
+    it fall apart into isolated stations.
+    """
+    if step.size == 0:
+        return np.zeros(0, bool)
+    line_of_step = codes[:-1]
+    median = pd.Series(np.where(within, step, np.nan)).groupby(line_of_step).transform("median")
+    candidate = np.flatnonzero(within & (step > multiple * median.to_numpy(dtype=float)))
+    if candidate.size == 0:
+        return np.zeros(step.size, bool)
+    offsets = np.concatenate([np.arange(-LOCAL_STEPS, 0), np.arange(1, LOCAL_STEPS + 1)])
+    around = candidate[:, None] + offsets[None, :]
+    inside = (around >= 0) & (around < step.size)
+    around = np.clip(around, 0, step.size - 1)
+    same = inside & within[around] & (line_of_step[around] == line_of_step[candidate][:, None])
+    neighbours = np.where(same, step[around], np.nan)
+    alone = ~same.any(axis=1)
+    neighbours[alone, 0] = 0.0  # no neighbour on the line: judged against the line median only
+    local = np.nanmedian(neighbours, axis=1)
+    gap = np.zeros(step.size, bool)
+    gap[candidate[step[candidate] > multiple * local]] = True
+    return gap
 
 
 def _run_maxima(candidate: np.ndarray, score: np.ndarray, tie: float = 0.5) -> np.ndarray:
