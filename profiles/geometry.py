@@ -277,32 +277,33 @@ def split_tracks(
     step, azimuth = geodesic_steps(lon, lat)
     same_line = codes[1:] == codes[:-1]
     repeat = same_line & (step < merge_tolerance)
-    is_kept = np.concatenate([[True], ~repeat]) if n else np.zeros(0, bool)
-    kept = np.flatnonzero(is_kept)
-    merged_into = kept[np.cumsum(is_kept) - 1] if n else np.zeros(0, np.intp)
-
-    # Steps between consecutive kept stations: the sum of the input steps between them (the
-    # skipped ones are shorter than the merge tolerance); azimuth of the last input step.
-    if kept.size >= 2:
+    if n and repeat.any():
+        is_kept = np.concatenate([[True], ~repeat])
+        kept = np.flatnonzero(is_kept)
+        merged_into = kept[np.cumsum(is_kept) - 1]
+        # Steps between consecutive kept stations: the sum of the input steps between them
+        # (the skipped ones are shorter than the merge tolerance); azimuth of the last one.
         cumulative = np.concatenate([[0.0], np.cumsum(step)])
         kstep = cumulative[kept[1:]] - cumulative[kept[:-1]]
         kazimuth = azimuth[kept[1:] - 1]
         kcodes = codes[kept]
         within = kcodes[1:] == kcodes[:-1]
-    else:
-        kstep = kazimuth = np.zeros(0)
-        kcodes = codes[kept]
-        within = np.zeros(0, bool)
+    else:  # nothing to merge: no copies
+        kept = merged_into = np.arange(n)
+        kstep, kazimuth, kcodes, within = step, azimuth, codes, same_line
+    m = kept.size
+    if m == 0:
+        empty = np.zeros(0, np.intp)
+        return TrackSplit(kept, merged_into, np.zeros(0), np.zeros(0), empty, empty, empty,
+                          np.zeros(0, dtype="<U4"), np.zeros(0))
 
-    # Along-line distance of kept stations.
-    along = np.concatenate([[0.0], np.cumsum(np.where(within, kstep, 0.0))]) if kept.size else np.zeros(0)
-    line_start = np.concatenate([[True], ~within]) if kept.size else np.zeros(0, bool)
-    first_of_line = (
-        np.maximum.accumulate(np.where(line_start, np.arange(kept.size), 0))
-        if kept.size
-        else np.zeros(0, int)
-    )
-    distance = along - along[first_of_line] if kept.size else along
+    # Along-line distance of kept stations: cumulative steps, restarted at each line.
+    line_first = np.concatenate([[0], np.flatnonzero(~within) + 1])
+    line_size = np.diff(np.append(line_first, m))
+    along = np.empty(m)
+    along[0] = 0.0
+    np.cumsum(np.where(within, kstep, 0.0), out=along[1:])
+    distance = along - np.repeat(along[line_first], line_size)
 
     # Gaps.
     if gap_length is not None:
@@ -311,64 +312,46 @@ def split_tracks(
         gap = _relative_gaps(kstep, within, kcodes, gap_multiple)
 
     # Sharp turns, over all lines at once: an artificial jump at line ends and gaps keeps the
-    # course windows inside one piece.
+    # course windows inside one piece; the step vectors there are zero.
     valid_step = within & ~gap
-    jump = 10.0 * turn_distance
-    position = (
-        np.concatenate([[0.0], np.cumsum(np.where(valid_step, kstep, kstep + jump))])
-        if kept.size
-        else np.zeros(0)
-    )
+    position = np.empty(m)
+    position[0] = 0.0
+    np.cumsum(np.where(valid_step, kstep, kstep + 10.0 * turn_distance), out=position[1:])
     rad = np.radians(kazimuth)
-    east = np.where(valid_step, kstep * np.sin(rad), 0.0)
-    north = np.where(valid_step, kstep * np.cos(rad), 0.0)
-    ce = np.concatenate([[0.0], np.cumsum(east)])
-    cn = np.concatenate([[0.0], np.cumsum(north)])
-    index = np.arange(kept.size)
-    lo = np.minimum(
-        np.searchsorted(position, position - turn_distance, side="left"), np.maximum(index - 1, 0)
-    )
-    hi = np.maximum(
-        np.searchsorted(position, position + turn_distance, side="right") - 1,
-        np.minimum(index + 1, kept.size - 1),
-    )
+    weight = np.where(valid_step, kstep, 0.0)
+    ce = np.empty(m)
+    cn = np.empty(m)
+    ce[0] = cn[0] = 0.0
+    np.cumsum(weight * np.sin(rad), out=ce[1:])
+    np.cumsum(weight * np.cos(rad), out=cn[1:])
+    index = np.arange(m)
+    lo = np.minimum(np.searchsorted(position, position - turn_distance, side="left"),
+                    np.maximum(index - 1, 0))
+    hi = np.maximum(np.searchsorted(position, position + turn_distance, side="right") - 1,
+                    np.minimum(index + 1, m - 1))
     be, bn = ce - ce[lo], cn - cn[lo]
     ae, an = ce[hi] - ce, cn[hi] - cn
-    cross = be * an - bn * ae
-    dot = be * ae + bn * an
-    has_both = (np.hypot(be, bn) > 0) & (np.hypot(ae, an) > 0)
-    change = np.where(has_both, np.degrees(np.arctan2(np.abs(cross), dot)), 0.0)
-    candidate = change > turn_angle
+    # Angle between the mean course before and after; 0 where either vector is zero
+    # (arctan2(0, 0) = 0), i.e. at the ends of pieces.
+    change = np.arctan2(np.abs(be * an - bn * ae), be * ae + bn * an)
+    candidate = change > np.radians(turn_angle)
     # Never split at the first or last station of a piece.
-    piece_edge = np.zeros(kept.size, bool)
-    if kept.size:
-        piece_edge[0] = piece_edge[-1] = True
-        piece_edge[1:][~valid_step] = True
-        piece_edge[:-1][~valid_step] = True
-    candidate &= ~piece_edge
-    turn_after = _run_maxima(candidate, change)
+    candidate[0] = candidate[-1] = False
+    candidate[1:][~valid_step] = False
+    candidate[:-1][~valid_step] = False
+    change_deg = np.degrees(change)
+    turn_after = _run_maxima(candidate, change_deg)
 
-    is_break = np.zeros(kstep.size, bool)
-    is_break[gap] = True
+    is_break = gap.copy()
     is_break[turn_after] = True
-    boundary = ~within | is_break
-    starts = np.concatenate([[0], np.flatnonzero(boundary) + 1]) if kept.size else np.zeros(0, int)
-    stops = np.concatenate([np.flatnonzero(boundary) + 1, [kept.size]]) if kept.size else np.zeros(0, int)
-
+    boundary = np.flatnonzero(~within | is_break) + 1
+    starts = np.concatenate([[0], boundary])
+    stops = np.concatenate([boundary, [m]])
     after = np.flatnonzero(within & is_break)
     kind = np.where(gap[after], "gap", "turn")
-    size = np.where(gap[after], kstep[after], change[after])
-    return TrackSplit(
-        kept,
-        merged_into,
-        distance,
-        np.concatenate([kazimuth, [np.nan]]) if kept.size else kazimuth,
-        starts.astype(np.intp),
-        stops.astype(np.intp),
-        after,
-        kind,
-        size,
-    )
+    size = np.where(gap[after], kstep[after], change_deg[after])
+    return TrackSplit(kept, merged_into, distance, np.concatenate([kazimuth, [np.nan]]),
+                      starts.astype(np.intp), stops.astype(np.intp), after, kind, size)
 
 
 #: Steps on each side whose median is the local spacing a gap is judged against.
