@@ -8,9 +8,9 @@ over all consecutive station pairs; nothing loops per station.
 A line is split into segments
 
 * at gaps: a step longer than ``gap_multiple`` times the line's median step and than
-  ``gap_multiple`` times the median of the ten steps on either side (so a stretch logged more
-  coarsely stays one stretch, flagged by the spacing audit), or longer than ``gap_length``
-  when that is given;
+  ``gap_multiple`` times the larger of the medians of the three steps before and the three
+  steps after it (so a stretch logged more coarsely stays one stretch, flagged by the spacing
+  audit), or longer than ``gap_length`` when that is given;
 * at sharp turns: where the mean course over ``turn_distance`` before a station and the mean
   course over ``turn_distance`` after it differ by more than ``turn_angle`` degrees. Mean
   courses are the directions of the summed step vectors (step length times the unit vector of
@@ -354,17 +354,18 @@ def split_tracks(
                       starts.astype(np.intp), stops.astype(np.intp), after, kind, size)
 
 
-#: Steps on each side whose median is the local spacing a gap is judged against.
-LOCAL_STEPS = 10
+#: Steps on each side of a step whose median is the local spacing a gap is judged against.
+LOCAL_STEPS = 3
 
 
 def _relative_gaps(step: np.ndarray, within: np.ndarray, codes: np.ndarray, multiple: float) -> np.ndarray:
-    """Steps longer than ``multiple`` times both the line's median step and the median of the
-    ``LOCAL_STEPS`` steps on either side (same line, the step itself excluded).
+    """Steps longer than ``multiple`` times the line's median step and than ``multiple`` times
+    the larger of the median of the ``LOCAL_STEPS`` steps before and of those after it.
 
-    The local test keeps a stretch that was logged more coarsely (say every 2.5 km on a line
+    The local test keeps a stretch that was logged more coarsely (say every 5 km on a line
     logged every 250 m) as one stretch, whose spacing the audit then flags, instead of letting
-    it fall apart into isolated stations.
+    it fall apart into isolated stations; a single long step between finely spaced stations
+    stays a gap.
     """
     if step.size == 0:
         return np.zeros(0, bool)
@@ -373,15 +374,15 @@ def _relative_gaps(step: np.ndarray, within: np.ndarray, codes: np.ndarray, mult
     candidate = np.flatnonzero(within & (step > multiple * median.to_numpy(dtype=float)))
     if candidate.size == 0:
         return np.zeros(step.size, bool)
-    offsets = np.concatenate([np.arange(-LOCAL_STEPS, 0), np.arange(1, LOCAL_STEPS + 1)])
-    around = candidate[:, None] + offsets[None, :]
-    inside = (around >= 0) & (around < step.size)
-    around = np.clip(around, 0, step.size - 1)
-    same = inside & within[around] & (line_of_step[around] == line_of_step[candidate][:, None])
-    neighbours = np.where(same, step[around], np.nan)
-    alone = ~same.any(axis=1)
-    neighbours[alone, 0] = 0.0  # no neighbour on the line: judged against the line median only
-    local = np.nanmedian(neighbours, axis=1)
+    local = np.zeros(candidate.size)
+    for offsets in (np.arange(-LOCAL_STEPS, 0), np.arange(1, LOCAL_STEPS + 1)):
+        around = candidate[:, None] + offsets[None, :]
+        inside = (around >= 0) & (around < step.size)
+        around = np.clip(around, 0, step.size - 1)
+        same = inside & within[around] & (line_of_step[around] == line_of_step[candidate][:, None])
+        neighbours = np.where(same, step[around], np.nan)
+        neighbours[~same.any(axis=1), 0] = 0.0  # no neighbour on this side: no local evidence
+        local = np.maximum(local, np.nanmedian(neighbours, axis=1))
     gap = np.zeros(step.size, bool)
     gap[candidate[step[candidate] > multiple * local]] = True
     return gap

@@ -16,7 +16,7 @@ from profiles.cli import main
 
 @pytest.fixture
 def survey_file(tmp_path):
-    lon, lat = walk(-15.0, -33.0, [(60, 120, 250.0), (60, 1, 8000.0), (60, 40, 2500.0)])
+    lon, lat = walk(-15.0, -33.0, [(60, 120, 250.0), (60, 1, 8000.0), (60, 20, 250.0), (60, 40, 2500.0)])
     n = lon.size
     return write_csv(tmp_path / "lines.csv", {
         "Line": ["T1"] * n, "Longitude": lon, "Latitude": lat,
@@ -35,13 +35,13 @@ def test_json_has_the_documented_keys(capsys, survey_file):
     assert status == 0
     doc = json.loads(out)
     assert set(doc["rows"]) == {"read", "used", "merged", "dropped"}
-    assert doc["rows"]["read"] == doc["rows"]["used"] == 162
+    assert doc["rows"]["read"] == doc["rows"]["used"] == 182
     keys = {"line", "segment", "n_stations", "start_km", "end_km", "length_km", "azimuth_deg",
             "straightness", "spacing_median_km", "spacing_p95_km", "spacing_max_km",
             "nyquist_wavelength_km", "aliasing_risk"}
     assert keys <= set(doc["segments"][0])
     assert len(doc["segments"]) == 2  # the 8 km step is a gap
-    # the 2.5 km steps exceed 4 km / 2: the whole second segment is one risky stretch
+    # the 2.5 km steps exceed 4 km / 2: one risky stretch at the end of the second segment
     (stretch,) = doc["risky_stretches"]
     assert set(stretch) >= {"line", "segment", "start_km", "end_km", "lon", "lat", "spacing_km"}
     assert stretch["segment"] == 2
@@ -60,7 +60,7 @@ def test_lengths_take_units(capsys, survey_file):
 def test_out_writes_tables(capsys, tmp_path, survey_file):
     out = tmp_path / "audit"
     status, text, _ = run(capsys, "spacing", survey_file, "--out", str(out), "--quiet")
-    assert status == 0 and "rows read 162" in text
+    assert status == 0 and "rows read 182" in text
     for name in ("segments.csv", "risky_stretches.csv", "breaks.csv", "stations.csv", "spacing.json"):
         assert (out / name).is_file()
     status, _, err = run(capsys, "spacing", survey_file, "--out", str(out))
@@ -111,7 +111,7 @@ def test_no_coordinate_columns_lists_found_and_closest(capsys, tmp_path):
 
 
 def test_one_point_line_and_doubling_back(capsys, tmp_path):
-    lon, lat = walk(0.0, 0.0, [(0, 40, 250.0), (180, 40, 250.0)])
+    lon, lat = walk(1.0, 1.0, [(0, 40, 250.0), (180, 40, 250.0)])
     n = lon.size
     path = write_csv(tmp_path / "odd.csv", {
         "line": ["A"] * n + ["B"], "lon": [*lon, 5.0], "lat": [*lat, 5.0]})

@@ -54,7 +54,7 @@ def test_sharp_turn_splits_at_the_vertex():
 def test_gentle_course_change_does_not_split():
     # 30 degrees spread over 15 km (2 degrees per km) is a curve, not a sharp turn at 45/2 km.
     legs = [(90 - i * 2.0, 4, 250.0) for i in range(16)]
-    lon, lat = walk(0.0, 0.0, legs)
+    lon, lat = walk(1.0, 1.0, legs)
     assert len(build_segments(survey_of(lon, lat))) == 1
 
 
@@ -67,7 +67,7 @@ def test_heading_jitter_does_not_split():
 
 
 def test_doubling_back_splits_with_a_warning():
-    lon, lat = walk(0.0, 0.0, [(0, 60, 250.0), (180, 60, 250.0)])
+    lon, lat = walk(1.0, 1.0, [(0, 60, 250.0), (180, 60, 250.0)])
     segments = build_segments(survey_of(lon, lat))
     assert len(segments) == 2
     assert any("doubles back" in w for w in segments.warnings)
@@ -75,7 +75,7 @@ def test_doubling_back_splits_with_a_warning():
 
 
 def test_duplicates_are_merged_and_counted():
-    lon, lat = walk(0.0, 0.0, [(90, 10, 300.0)])
+    lon, lat = walk(1.0, 1.0, [(90, 10, 300.0)])
     lon = np.insert(lon, 5, lon[5])
     lat = np.insert(lat, 5, lat[5])
     depth = np.arange(lon.size, dtype=float)
@@ -88,7 +88,7 @@ def test_duplicates_are_merged_and_counted():
 
 
 def test_single_station_line_is_dropped_with_reason():
-    lon, lat = walk(0.0, 0.0, [(90, 10, 300.0)])
+    lon, lat = walk(1.0, 1.0, [(90, 10, 300.0)])
     line = np.array(["A"] * lon.size + ["B"])
     survey = Survey.from_arrays(line=line, lon=np.append(lon, 3.0), lat=np.append(lat, 3.0))
     segments = build_segments(survey)
@@ -98,7 +98,7 @@ def test_single_station_line_is_dropped_with_reason():
 
 def test_spacing_statistics_and_nyquist():
     # Steps: 100 x 200 m then 20 x 900 m (4.5x the median: under the 5x gap rule).
-    lon, lat = walk(0.0, 0.0, [(90, 100, 200.0), (90, 20, 900.0)])
+    lon, lat = walk(1.0, 1.0, [(90, 100, 200.0), (90, 20, 900.0)])
     segments = build_segments(survey_of(lon, lat))
     audit = audit_spacing(segments, shortest_wavelength=1500.0)
     row = audit.segments.iloc[0]
@@ -120,7 +120,7 @@ def test_spacing_statistics_and_nyquist():
 
 
 def test_no_risk_when_spacing_is_fine_enough_and_too_short_flag():
-    lon, lat = walk(0.0, 0.0, [(90, 100, 200.0)])
+    lon, lat = walk(1.0, 1.0, [(90, 100, 200.0)])
     audit = audit_spacing(build_segments(survey_of(lon, lat)), shortest_wavelength=1000.0,
                           longest_wavelength=15_000.0)
     assert audit.risky_stretches.empty
@@ -132,7 +132,20 @@ def test_no_risk_when_spacing_is_fine_enough_and_too_short_flag():
 def test_straightness_of_a_dog_leg():
     # Two 10 km legs at right angles inside one segment (turn threshold raised to keep it):
     # chord / length = sqrt(2) * 10 / 20.
-    lon, lat = walk(0.0, 0.0, [(90, 40, 250.0), (0, 40, 250.0)])
+    lon, lat = walk(1.0, 1.0, [(90, 40, 250.0), (0, 40, 250.0)])
     segments = build_segments(survey_of(lon, lat), turn_angle=120.0)
     assert len(segments) == 1
     assert segments.segments[0].straightness == pytest.approx(np.sqrt(2) / 2, rel=2e-3)
+
+
+def test_coarse_stretch_stays_one_stretch_and_is_flagged():
+    # 7 steps of 5 km inside a line logged every 250 m: a stretch logged coarsely, not 7 gaps
+    # (each 5 km step has 5 km neighbours on one side); the audit flags exactly that stretch.
+    lon, lat = walk(-40.0, 20.0, [(135, 100, 250.0), (135, 7, 5000.0), (135, 100, 250.0)])
+    segments = build_segments(survey_of(lon, lat))
+    assert len(segments) == 1
+    audit = audit_spacing(segments, shortest_wavelength=4000.0)
+    (stretch,) = audit.risky_stretches.itertuples()
+    assert stretch.start_km == pytest.approx(25.0, abs=1e-6)
+    assert stretch.end_km == pytest.approx(60.0, abs=1e-6)
+    assert stretch.n_steps == 7
