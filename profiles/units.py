@@ -95,3 +95,26 @@ def parse_length_or_multiple(text: str, *, what: str) -> tuple[str, float]:
 def format_km(metres: float, digits: int = 3) -> str:
     """Format a length in metres as kilometres, e.g. ``"1.250 km"``."""
     return f"{metres / 1000.0:.{digits}f} km"
+
+
+#: Units read off the end of a field name (``depth_m``, ``gravity_mgal``, ``magnetic_nt``).
+FIELD_SUFFIX_UNITS = {
+    "m": "m",
+    "km": "km",
+    "ft": "ft",
+    "mgal": "mGal",
+    "ugal": "µGal",
+    "nt": "nT",
+    "gu": "g.u.",
+    "eotvos": "Eötvös",
+}
+
+
+def field_units(field: str) -> str:
+    """The units of a field, read off its name's last ``_`` part; ``"field units"`` otherwise.
+
+    >>> field_units("gravity_mgal")
+    'mGal'
+    """
+    suffix = str(field).rsplit("_", 1)[-1].lower() if "_" in str(field) else ""
+    return FIELD_SUFFIX_UNITS.get(suffix, "field units")

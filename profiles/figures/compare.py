@@ -21,10 +21,24 @@ def fabric_figure(fit, *, title: str):
     predicted = np.asarray(fit.predicted_wavelength(curve), dtype=float) / 1e3
     cap = 8.0 * max(float(np.nanmax(fit.observed)) / 1e3, fit.wavelength / 1e3)
     predicted = np.where(predicted > cap, np.nan, predicted)
-    ax.plot(curve, predicted, color="#1f4e79", lw=1.3,
-            label=f"fit: L = {fit.wavelength / 1e3:.2f} km, strike {fit.strike_deg:.1f}°")
-    ax.scatter(azimuth, np.asarray(fit.observed) / 1e3, s=36, marker="o", facecolor="white",
-               edgecolor="#b03a2e", lw=1.4, zorder=3, label="dominant wavelength per line")
+    ax.plot(
+        curve,
+        predicted,
+        color="#1f4e79",
+        lw=1.3,
+        label=f"fit: L = {fit.wavelength / 1e3:.2f} km, strike {fit.strike_deg:.1f}°",
+    )
+    ax.scatter(
+        azimuth,
+        np.asarray(fit.observed) / 1e3,
+        s=36,
+        marker="o",
+        facecolor="white",
+        edgecolor="#b03a2e",
+        lw=1.4,
+        zorder=3,
+        label="dominant wavelength per line",
+    )
     for name, a, w in zip(fit.lines, azimuth, np.asarray(fit.observed) / 1e3, strict=True):
         ax.annotate(name, (a, w), xytext=(4, 4), textcoords="offset points", fontsize=7)
     ax.axvline(np.mod(fit.strike_deg, 180.0), color="#7a7a7a", ls=":", lw=1.0)
@@ -48,10 +62,14 @@ def coherence_figure(spectrum, *, model=None, model_admittance=None, title: str,
     k = np.asarray(spectrum.wavenumber, dtype=float) * 1e3
     figure = new_figure(7.0, 6.0)
     top, bottom = figure.subplots(2, 1, sharex=True)
-    top.plot(k, spectrum.coherence, color="#1f4e79", lw=1.2, marker=".", ms=3,
-             label="squared coherence")
-    top.axhline(spectrum.coherence_threshold, color="#b03a2e", ls="--", lw=1.0,
-                label=f"zero-coherence level ({100 * (1 - spectrum.alpha):.0f}%)")
+    top.plot(k, spectrum.coherence, color="#1f4e79", lw=1.2, marker=".", ms=3, label="squared coherence")
+    top.axhline(
+        spectrum.coherence_threshold,
+        color="#b03a2e",
+        ls="--",
+        lw=1.0,
+        label=f"zero-coherence level ({100 * (1 - spectrum.alpha):.0f}%)",
+    )
     top.set_ylim(0, 1.02)
     top.set_ylabel("squared coherence")
     top.set_xscale("log")
@@ -63,10 +81,20 @@ def coherence_figure(spectrum, *, model=None, model_admittance=None, title: str,
     error = np.asarray(spectrum.admittance_err, dtype=float)
     error = np.where(np.isfinite(error), error, np.nan)
     coherent = np.asarray(spectrum.coherence) > spectrum.coherence_threshold
-    bottom.errorbar(k[coherent], real[coherent], yerr=error[coherent], fmt="o", ms=3.5,
-                    color="#1f4e79", ecolor="#9fb6cd", lw=0.8, label="admittance (coherent)")
-    bottom.plot(k[~coherent], real[~coherent], "x", ms=3.5, color="#9a9a9a",
-                label="admittance (not coherent)")
+    bottom.errorbar(
+        k[coherent],
+        real[coherent],
+        yerr=error[coherent],
+        fmt="o",
+        ms=3.5,
+        color="#1f4e79",
+        ecolor="#9fb6cd",
+        lw=0.8,
+        label="admittance (coherent)",
+    )
+    bottom.plot(
+        k[~coherent], real[~coherent], "x", ms=3.5, color="#9a9a9a", label="admittance (not coherent)"
+    )
     if model_admittance is not None:
         label = "uncompensated load model"
         if model is not None:

@@ -44,20 +44,46 @@ def draw_spectrum(
     keep = k > 0
     ax.plot(k[keep], np.asarray(density)[keep], color=colour, lw=1.2, label=label)
     if lower is not None and upper is not None:
-        ax.fill_between(k[keep], np.asarray(lower)[keep], np.asarray(upper)[keep], color=colour,
-                        alpha=0.2, lw=0, label="confidence interval" if label is None else None)
+        ax.fill_between(
+            k[keep],
+            np.asarray(lower)[keep],
+            np.asarray(upper)[keep],
+            color=colour,
+            alpha=0.2,
+            lw=0,
+            label="confidence interval" if label is None else None,
+        )
     if background is not None:
-        ax.plot(k[keep], np.asarray(background)[keep], color="#7a7a7a", lw=1.0, ls="-",
-                label="red-noise background (AR(1))")
+        ax.plot(
+            k[keep],
+            np.asarray(background)[keep],
+            color="#7a7a7a",
+            lw=1.0,
+            ls="-",
+            label="red-noise background (AR(1))",
+        )
     if threshold is not None:
-        ax.plot(k[keep], np.asarray(threshold)[keep], color="#7a7a7a", lw=1.0, ls="--",
-                label="red-noise significance level")
+        ax.plot(
+            k[keep],
+            np.asarray(threshold)[keep],
+            color="#7a7a7a",
+            lw=1.0,
+            ls="--",
+            label="red-noise significance level",
+        )
     density_k = np.asarray(density)[keep]
     for peak in peaks_per_km:
         at = int(np.argmin(np.abs(k[keep] - peak)))
-        ax.annotate(f"{1.0 / peak:.3g} km", (k[keep][at], density_k[at]), xytext=(0, 8),
-                    textcoords="offset points", ha="center", fontsize=8, color="#b03a2e",
-                    arrowprops={"arrowstyle": "-", "color": "#b03a2e", "lw": 0.8})
+        ax.annotate(
+            f"{1.0 / peak:.3g} km",
+            (k[keep][at], density_k[at]),
+            xytext=(0, 8),
+            textcoords="offset points",
+            ha="center",
+            fontsize=8,
+            color="#b03a2e",
+            arrowprops={"arrowstyle": "-", "color": "#b03a2e", "lw": 0.8},
+        )
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.grid(True, which="major", color="#dddddd", lw=0.6)
@@ -79,9 +105,16 @@ def spectrum_figure(
     """A figure with one spectrum, its confidence band, background and labelled peaks."""
     figure = new_figure(7.0, 4.4)
     ax = figure.add_subplot()
-    draw_spectrum(ax, wavenumber_per_km=wavenumber_per_km, density=density, lower=lower,
-                  upper=upper, background=background, threshold=threshold,
-                  peaks_per_km=peaks_per_km)
+    draw_spectrum(
+        ax,
+        wavenumber_per_km=wavenumber_per_km,
+        density=density,
+        lower=lower,
+        upper=upper,
+        background=background,
+        threshold=threshold,
+        peaks_per_km=peaks_per_km,
+    )
     ax.set_xlabel("wavenumber (cycles per km)")
     ax.set_ylabel(ylabel or f"power spectral density ({units}² per cycle/km)")
     ax.set_title(title, fontsize=10)
@@ -107,9 +140,15 @@ def overlaid_spectra_figure(spectra: Sequence[dict], *, units: str, title: str, 
     colours = ["#1f4e79", "#c0392b", "#27ae60", "#8e44ad", "#d68910", "#17a589"]
     for i, item in enumerate(spectra):
         ax = axes[i // per_panel]
-        draw_spectrum(ax, wavenumber_per_km=item["wavenumber_per_km"], density=item["density"],
-                      lower=item.get("lower"), upper=item.get("upper"), label=item["label"],
-                      colour=colours[i % per_panel % len(colours)])
+        draw_spectrum(
+            ax,
+            wavenumber_per_km=item["wavenumber_per_km"],
+            density=item["density"],
+            lower=item.get("lower"),
+            upper=item.get("upper"),
+            label=item["label"],
+            colour=colours[i % per_panel % len(colours)],
+        )
     for j, ax in enumerate(axes):
         if j >= panels:
             ax.set_visible(False)

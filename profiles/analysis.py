@@ -1,0 +1,316 @@
+"""Spectra of survey segments: resample a field on every segment and analyse it.
+
+This is the step every command shares between the track geometry and the spectral core:
+each segment of a line is resampled to a uniform spacing on its own (never across a gap), its
+harmonic table is computed with Fisher's g test (white-noise null) and the AR(1) test
+(red-noise null), and, as asked, a density estimate with confidence bounds (Welch or
+multitaper on the resampled values, Lomb-Scargle on the original stations).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal, get_args
+
+import numpy as np
+
+from .errors import InputError, SpacingError
+from .geometry import Segment, Segments
+from .resample import Interpolation, UniformSegment, resample
+from .spectral.harmonics import HarmonicTable, harmonic_table
+from .spectral.psd import Spectrum, multitaper_psd, welch_psd
+from .spectral.significance import FisherTest, RedNoiseTest, fisher_from_variances, red_noise_test
+
+Method = Literal["harmonic", "welch", "multitaper", "lomb-scargle"]
+
+#: Fewest resampled values a segment needs to be analysed.
+MIN_SAMPLES = 16
+#: Welch blocks per segment when no block length is given: a block of a quarter of the
+#: segment gives seven blocks at 50 % overlap (about 13 degrees of freedom with a Hann taper).
+DEFAULT_BLOCKS_PER_SEGMENT = 4
+
+
+@dataclass(frozen=True, eq=False)
+class SegmentSpectrum:
+    """Spectral analysis of one field on one segment.
+
+    Attributes
+    ----------
+    uniform : UniformSegment
+        The resampled values analysed.
+    harmonics : HarmonicTable
+        Harmonic table of the resampled values (no taper unless asked).
+    fisher : FisherTest
+        Fisher's g test of the dominant harmonic; null hypothesis white noise.
+    red_noise : RedNoiseTest
+        Test of each harmonic against an AR(1) background; null hypothesis red noise.
+    method : str
+        The density method asked for.
+    density : Spectrum or None
+        Welch or multitaper density with confidence bounds (None for ``harmonic`` and
+        ``lomb-scargle``).
+    uneven : object or None
+        Lomb-Scargle result on the original stations (``lomb-scargle`` only).
+    """
+
+    uniform: UniformSegment
+    harmonics: HarmonicTable
+    fisher: FisherTest
+    red_noise: RedNoiseTest
+    method: str
+    density: Spectrum | None = None
+    uneven: object | None = None
+
+    @property
+    def label(self) -> str:
+        """``line/segment``."""
+        return self.uniform.label
+
+    @property
+    def red_dominant_k(self) -> int | None:
+        """Largest-variance harmonic flagged by the red-noise test (None when none is)."""
+        flagged = np.flatnonzero(self.red_noise.significant)
+        if flagged.size == 0:
+            return None
+        return int(flagged[np.argmax(self.harmonics.variance[flagged])])
+
+    def significant_wavelengths(self) -> np.ndarray:
+        """Wavelengths (m) of the red-noise-significant harmonics, strongest first."""
+        flagged = np.flatnonzero(self.red_noise.significant)
+        order = flagged[np.argsort(self.harmonics.variance[flagged])[::-1]]
+        return self.harmonics.wavelength[order]
+
+    def peak_harmonics(self, count: int = 3, *, separation: int = 2) -> np.ndarray:
+        """The strongest red-noise-significant harmonics, at least ``separation`` + 1 apart
+        (a peak that spreads over neighbouring harmonics is one peak)."""
+        flagged = np.flatnonzero(self.red_noise.significant)
+        chosen: list[int] = []
+        for k in flagged[np.argsort(self.harmonics.variance[flagged])[::-1]]:
+            if all(abs(int(k) - c) > separation for c in chosen):
+                chosen.append(int(k))
+            if len(chosen) == count:
+                break
+        return np.array(chosen, dtype=int)
+
+    def plot_data(self, *, units: str, peaks: int = 3) -> dict:
+        """Arguments of :func:`profiles.figures.spectra.spectrum_figure` (per cycle/km).
+
+        The harmonic method shows the periodogram, s_k^2 / dk with dk = 1/(N dx), with the
+        AR(1) background and its significance level on the same scale; the density methods
+        show their estimate and its confidence bounds. The strongest red-noise-significant
+        harmonics are labelled with their wavelength.
+        """
+        table = self.harmonics
+        step = 1e3 / (table.n * table.spacing)  # dk in cycles per km
+        wavelengths = self.harmonics.wavelength[self.peak_harmonics(peaks)]
+        common = {
+            "title": (
+                f"{self.uniform.field} on {self.label}: {self.method}, "
+                f"{self.uniform.n} samples at {self.uniform.spacing:.0f} m"
+            ),
+            "units": units,
+            "peaks_per_km": [1e3 / w for w in wavelengths],
+        }
+        if self.density is not None:
+            frame = self.density.to_frame()
+            return {
+                **common,
+                "wavenumber_per_km": frame["wavenumber_per_km"].to_numpy(),
+                "density": frame["psd_per_cycle_per_km"].to_numpy(),
+                "lower": frame["psd_lower_per_cycle_per_km"].to_numpy(),
+                "upper": frame["psd_upper_per_cycle_per_km"].to_numpy(),
+            }
+        if self.uneven is not None:
+            frame = self.uneven.to_frame()
+            return {
+                **common,
+                "wavenumber_per_km": frame["wavenumber_per_km"].to_numpy(),
+                "density": frame["power"].to_numpy(),
+                "ylabel": "Lomb-Scargle power (normalised)",
+            }
+        return {
+            **common,
+            "wavenumber_per_km": table.wavenumber * 1e3,
+            "density": table.variance / step,
+            "background": self.red_noise.background / step,
+            "threshold": self.red_noise.threshold / step,
+            "ylabel": f"periodogram ({units}² per cycle/km)",
+        }
+
+    def to_json(self, *, harmonics: bool = True) -> dict:
+        """The segment's entry of the ``spectrum`` command's JSON document."""
+        table = self.harmonics
+        uniform = self.uniform
+        entry = {
+            "line": uniform.line,
+            "segment": uniform.number,
+            "field": uniform.field,
+            "n": uniform.n,
+            "spacing_km": uniform.spacing / 1e3,
+            "start_km": uniform.start / 1e3,
+            "variance": float(np.var(uniform.values, ddof=1)),
+            "method": self.method,
+        }
+        if harmonics:
+            frame = table.to_frame()
+            entry["harmonics"] = [
+                {
+                    "k": int(row.harmonic),
+                    "wavenumber_per_km": row.wavenumber_per_km,
+                    "wavelength_km": row.wavelength_km,
+                    "a": row.cosine,
+                    "b": row.sine,
+                    "amplitude": row.amplitude,
+                    "phase_deg": row.phase_deg,
+                    "variance": row.variance,
+                    "variance_fraction": row.variance_fraction,
+                }
+                for row in frame.itertuples()
+            ]
+        fisher = self.fisher
+        entry["fisher"] = {
+            "null": fisher.null,
+            "g": float(fisher.g),
+            "m": int(fisher.m),
+            "p_value": float(fisher.p_value),
+            "g_critical": float(fisher.g_critical),
+            "g_critical_approx": float(fisher.g_critical_approx),
+            "alpha": float(fisher.alpha),
+            "dominant_k": int(fisher.dominant_k),
+            "dominant_wavelength_km": float(fisher.dominant_wavelength) / 1e3,
+            "significant": bool(fisher.significant),
+        }
+        red = self.red_noise
+        strongest = self.red_dominant_k
+        entry["red_noise"] = {
+            "null": red.null,
+            "lag1": float(red.lag1),
+            "alpha": float(red.alpha),
+            "significant_k": [int(k) for k in red.significant_k],
+            "dominant_k": strongest,
+            "dominant_wavelength_km": (
+                None if strongest is None else float(table.wavelength[strongest]) / 1e3
+            ),
+        }
+        if self.density is not None:
+            frame = self.density.to_frame()
+            entry["psd"] = [
+                {
+                    "wavenumber_per_km": row.wavenumber_per_km,
+                    "wavelength_km": row.wavelength_km,
+                    "psd": row.psd_per_cycle_per_km,
+                    "lower": row.psd_lower_per_cycle_per_km,
+                    "upper": row.psd_upper_per_cycle_per_km,
+                }
+                for row in frame.itertuples()
+            ]
+            entry["psd_method"] = {
+                "method": self.density.method,
+                "confidence": self.density.confidence,
+                "resolution_per_km": self.density.resolution * 1e3,
+                "segment_length_km": (
+                    None if self.density.segment_length is None else self.density.segment_length / 1e3
+                ),
+                "overlap": self.density.overlap,
+                "n_segments": self.density.n_segments,
+                "nw": self.density.nw,
+                "n_tapers": self.density.n_tapers,
+            }
+        if self.uneven is not None:
+            entry["psd"] = self.uneven.records()
+        return entry
+
+
+def resample_field(
+    segments: Segments,
+    field: str,
+    *,
+    spacing: float | None = None,
+    interpolation: Interpolation = "linear",
+    min_samples: int = MIN_SAMPLES,
+) -> tuple[list[tuple[Segment, UniformSegment]], list[str]]:
+    """Resample ``field`` on every segment; segments too short to analyse are reported.
+
+    Returns
+    -------
+    pairs, warnings
+        (segment, resampled) for every usable segment, and one warning per skipped segment.
+    """
+    pairs, warnings = [], []
+    for segment in segments:
+        try:
+            uniform = resample(segment, field, spacing=spacing, interpolation=interpolation)
+        except SpacingError as error:
+            warnings.append(f"segment {segment.label}: not analysed ({error})")
+            continue
+        if uniform.n < min_samples:
+            warnings.append(
+                f"segment {segment.label}: {uniform.n} samples after resampling, "
+                f"fewer than the {min_samples} a spectrum needs; not analysed"
+            )
+            continue
+        pairs.append((segment, uniform))
+    return pairs, warnings
+
+
+def analyse_segment(
+    segment: Segment,
+    uniform: UniformSegment,
+    *,
+    method: Method = "harmonic",
+    alpha: float = 0.05,
+    detrend: Literal["linear", "mean"] = "linear",
+    taper: str | None = None,
+    segment_length: float | None = None,
+    overlap: float = 0.5,
+    nw: float = 4.0,
+    confidence: float = 0.95,
+) -> SegmentSpectrum:
+    """Harmonic table, both significance tests and (as asked) a density of one segment.
+
+    Parameters
+    ----------
+    segment : Segment
+        The original stations (used by Lomb-Scargle).
+    uniform : UniformSegment
+        The same segment resampled (used by every other method).
+    method : {"harmonic", "welch", "multitaper", "lomb-scargle"}
+    alpha : float
+        Significance level of Fisher's test and of the red-noise test.
+    detrend : {"linear", "mean"}
+    taper : str, optional
+        Taper of the harmonic table (none by default, so its variance split is exact).
+    segment_length : float, optional
+        Welch block length (m); a quarter of the segment by default.
+    overlap : float
+        Welch overlap fraction.
+    nw : float
+        Multitaper time-bandwidth product.
+    confidence : float
+        Level of the density's confidence bounds.
+    """
+    if method not in get_args(Method):
+        raise InputError(f"method must be one of {', '.join(get_args(Method))} (got {method!r})")
+    values, spacing = uniform.values, uniform.spacing
+    table = harmonic_table(values, spacing=spacing, detrend=detrend, taper=taper)
+    untapered = table if taper is None else harmonic_table(values, spacing=spacing, detrend=detrend)
+    fisher = fisher_from_variances(untapered.variance, n=uniform.n, spacing=spacing, alpha=alpha)
+    red = red_noise_test(values, spacing=spacing, detrend=detrend, alpha=alpha)
+    density = uneven = None
+    if method == "welch":
+        length = segment_length or uniform.n * spacing / DEFAULT_BLOCKS_PER_SEGMENT
+        density = welch_psd(
+            values,
+            spacing=spacing,
+            segment_length=length,
+            overlap=overlap,
+            detrend=detrend,
+            confidence=confidence,
+        )
+    elif method == "multitaper":
+        density = multitaper_psd(values, spacing=spacing, nw=nw, detrend=detrend, confidence=confidence)
+    elif method == "lomb-scargle":
+        from .spectral.uneven import lomb_scargle
+
+        uneven = lomb_scargle(segment.distance, segment.values[uniform.field])
+    return SegmentSpectrum(uniform, table, fisher, red, method, density, uneven)
