@@ -314,3 +314,145 @@ def analyse_segment(
 
         uneven = lomb_scargle(segment.distance, segment.values[uniform.field])
     return SegmentSpectrum(uniform, table, fisher, red, method, density, uneven)
+
+
+@dataclass(frozen=True, eq=False)
+class SurveyCoherence:
+    """Cross-spectrum of two fields over the survey's segments, and the load-model fit.
+
+    Attributes
+    ----------
+    spectrum : profiles.cross.CrossSpectrum
+    model : profiles.cross.LoadModelFit or None
+        None when the fit was impossible (``model_note`` says why).
+    input_field, output_field : str
+    input_positive_down : bool
+        Whether the input was read as depth, positive down.
+    mean_depth : float
+        Depth of the load in the model (m).
+    spacing : float
+        Common resampling spacing (m).
+    segments : tuple of str
+        Labels of the segments used.
+    model_note : str
+    """
+
+    spectrum: object
+    model: object | None
+    input_field: str
+    output_field: str
+    input_positive_down: bool
+    mean_depth: float
+    spacing: float
+    segments: tuple[str, ...]
+    model_note: str = ""
+
+    def model_admittance(self) -> np.ndarray | None:
+        """The fitted model's admittance at the spectrum's wavenumbers."""
+        if self.model is None:
+            return None
+        from .cross import uncompensated_admittance
+
+        return uncompensated_admittance(
+            self.spectrum.wavenumber,
+            density_contrast=self.model.density_contrast,
+            depth=self.mean_depth,
+            input_positive_down=self.input_positive_down,
+        )
+
+    def to_json(self) -> dict:
+        """``bands[...]`` and ``model{...}`` as the coherence command prints them."""
+        spectrum = self.spectrum
+        document = {
+            "input": self.input_field,
+            "output": self.output_field,
+            "input_positive_down": self.input_positive_down,
+            "method": spectrum.method,
+            "n_estimates": float(spectrum.n_estimates),
+            "alpha": float(spectrum.alpha),
+            "spacing_km": self.spacing / 1e3,
+            "segments": list(self.segments),
+            "convention": "S_xy = E[conj(X) Y], X the input, Y the output; admittance "
+            "S_xy / S_xx; negative phase: the output lags",
+            "bands": spectrum.to_json_bands(),
+        }
+        if self.model is not None:
+            document["model"] = {
+                **self.model.to_json(),
+                "assumptions": "uncompensated load (Parker 1972 first term), "
+                "Z = 2 pi G drho exp(-k d), d the mean water depth",
+            }
+        else:
+            document["model"] = None
+            document["model_note"] = self.model_note
+        return document
+
+
+def survey_coherence(
+    segments: Segments,
+    *,
+    input_field: str,
+    output_field: str,
+    spacing: float | None = None,
+    method: Literal["welch", "multitaper"] = "welch",
+    segment_length: float | None = None,
+    nw: float = 4.5,
+    alpha: float = 0.05,
+    input_positive_down: bool | None = None,
+    depth: float | None = None,
+    min_wavelength: float | None = None,
+    max_wavelength: float | None = None,
+) -> SurveyCoherence:
+    """Coherence and admittance of ``output_field`` against ``input_field``, averaged over
+    every segment, and the uncompensated-load fit.
+
+    Both fields are resampled onto one common grid per segment (spacing: the median of the
+    segments' median station spacings unless given). The input is taken as depth, positive
+    down, when ``input_positive_down`` is None and its name starts with ``depth``; the mean
+    depth of the load is then the input's mean, unless ``depth`` is given. Welch blocks default
+    to half the longest segment, so that each block spans many times 2 pi d.
+    """
+    from .cross import cross_spectrum, fit_uncompensated_load
+
+    usable = [s for s in segments if s.n_stations >= MIN_SAMPLES]
+    if not usable:
+        raise InputError("no segment has enough stations for a cross-spectrum")
+    if spacing is None:
+        spacing = float(np.median([np.median(s.spacing) for s in usable]))
+    inputs, outputs, labels = [], [], []
+    for segment in usable:
+        try:
+            a = resample(segment, input_field, spacing=spacing)
+            b = resample(segment, output_field, spacing=spacing)
+        except SpacingError:
+            continue
+        if a.n >= MIN_SAMPLES:
+            inputs.append(a.values)
+            outputs.append(b.values)
+            labels.append(segment.label)
+    if input_positive_down is None:
+        input_positive_down = input_field.lower().startswith("depth")
+    if method == "welch" and segment_length is None:
+        segment_length = 0.5 * max(v.size for v in inputs) * spacing
+    spectrum = cross_spectrum(
+        inputs, outputs, spacing=spacing, method=method, segment_length=segment_length, nw=nw, alpha=alpha
+    )
+    if depth is None:
+        depth = float(np.mean(np.concatenate(inputs))) if input_positive_down else float("nan")
+    model, note = None, ""
+    if np.isfinite(depth) and depth > 0:
+        try:
+            model = fit_uncompensated_load(
+                spectrum,
+                depth=depth,
+                input_positive_down=input_positive_down,
+                min_wavelength=min_wavelength,
+                max_wavelength=max_wavelength,
+            )
+        except InputError as error:
+            note = str(error)
+    else:
+        note = "no mean water depth: give --depth (the input is not depth positive down)"
+    return SurveyCoherence(
+        spectrum, model, input_field, output_field, input_positive_down, depth, spacing, tuple(labels), note
+    )
