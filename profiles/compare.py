@@ -190,8 +190,8 @@ def fabric_input(
     )
 
 
-#: A segment whose wavenumber misfit exceeds this many resolution half-widths is left out
-#: of the fabric fit (and named), one at a time, while at least three segments remain.
+#: A segment whose wavenumber misfit exceeds this many harmonic half-widths is left out of
+#: the fabric fit (and named), one at a time, while more than three segments remain.
 OUTLIER_WIDTHS = 3.0
 
 
@@ -204,9 +204,10 @@ def fit_survey_fabric(
 ):
     """Fit the fabric's true wavelength and strike to the segments' apparent wavelengths.
 
-    With ``reject_outliers`` the segment worst fitted is left out and the fit repeated while
-    its misfit in wavenumber exceeds :data:`OUTLIER_WIDTHS` times the half-width of a
-    harmonic, 1 / (2 L) for a segment of length L, and more than three segments remain. Such a
+    With ``reject_outliers``, while some segment misfits by more than :data:`OUTLIER_WIDTHS`
+    harmonic half-widths in wavenumber (1 / (2 L) for a segment of length L) and more than
+    three segments remain, the segment whose removal lets the others fit best is left out
+    (and named) if it misfits that fit by more than the same amount. Such a
     segment usually carries another feature (a seamount, a regional trend) or crosses the
     fabric so obliquely that its apparent wavelength is longer than the segment resolves.
 
@@ -226,35 +227,60 @@ def fit_survey_fabric(
     chosen = fabric_input(pairs, band=band, exclude=exclude)
     left_out = list(chosen.left_out)
     keep = np.ones(len(chosen.labels), bool)
-    while True:
-        labels = [label for label, k in zip(chosen.labels, keep, strict=True) if k]
+
+    def fit(mask):
+        labels = [label for label, k in zip(chosen.labels, mask, strict=True) if k]
         if len(labels) < 2:
             detail = "; ".join(left_out) or "no segments"
             raise InputError(
                 f"fabric fit needs two or more straight segments with a significant "
                 f"peak; found {len(labels)} ({detail})"
             )
-        fit = fit_fabric(
-            chosen.azimuth_deg[keep],
-            chosen.wavelength[keep],
-            wavelength_err=chosen.wavelength_err[keep],
+        return fit_fabric(
+            chosen.azimuth_deg[mask],
+            chosen.wavelength[mask],
+            wavelength_err=chosen.wavelength_err[mask],
             lines=labels,
         )
-        if not reject_outliers or keep.sum() <= 3:
+
+    def misfit(result, mask):
+        # misfit in wavenumber, in harmonic half-widths 1/(2L) = err / lambda^2
+        observed = chosen.wavelength[mask]
+        predicted = np.asarray(result.predicted_wavelength(chosen.azimuth_deg[mask]), dtype=float)
+        width = chosen.wavelength_err[mask] / observed**2
+        return np.abs(1.0 / observed - 1.0 / predicted) / width
+
+    result = fit(keep)
+    while reject_outliers and keep.sum() > 3 and misfit(result, keep).max() > OUTLIER_WIDTHS:
+        # Leave each segment out in turn; the one whose removal lets the others fit best is
+        # the most inconsistent (an outlier bends a fit that includes it, so its own
+        # residual in the full fit need not be the largest).
+        best = None
+        for position in np.flatnonzero(keep):
+            trial = keep.copy()
+            trial[position] = False
+            try:
+                candidate = fit(trial)
+            except InputError:
+                continue
+            rest = float(np.sum(misfit(candidate, trial) ** 2))
+            if best is None or rest < best[0]:
+                best = (rest, position, candidate)
+        if best is None:
             break
-        # misfit in wavenumber, in units of the harmonic half-width 1/(2L) = err / lambda^2
-        observed = chosen.wavelength[keep]
-        width = chosen.wavelength_err[keep] / observed**2
-        misfit = np.abs(1.0 / observed - 1.0 / np.asarray(fit.predicted)) / width
-        worst = int(np.argmax(misfit))
-        if misfit[worst] <= OUTLIER_WIDTHS:
+        _, position, candidate = best
+        alone = np.zeros_like(keep)
+        alone[position] = True
+        width = float(misfit(candidate, alone)[0])
+        if width <= OUTLIER_WIDTHS:
             break
-        position = np.flatnonzero(keep)[worst]
         keep[position] = False
+        result = candidate
         left_out.append(
-            f"{chosen.labels[position]}: misfit of {misfit[worst]:.1f} harmonic "
-            f"half-widths (apparent {chosen.wavelength[position] / 1e3:.2f} km)"
+            f"{chosen.labels[position]}: misfit of {width:.1f} harmonic half-widths "
+            f"(apparent {chosen.wavelength[position] / 1e3:.2f} km)"
         )
+    fit = result
     used = FabricInput(
         tuple(np.array(chosen.labels)[keep]),
         chosen.azimuth_deg[keep],
