@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from .analysis import SegmentSpectrum
-from .errors import InputError
+from .errors import InputError, ProfilesError
 from .geometry import Segment
 from .spectral.slope import power_law_fit
 
@@ -401,7 +401,7 @@ def compare_survey(
             shortest_wavelength=shortest_wavelength,
             alpha=alpha,
         )
-    except InputError as error:
+    except ProfilesError as error:
         warnings.append(f"no windows for the aliasing share ({error})")
     if windows is not None and len(windows):
         labels = np.array(

@@ -20,8 +20,15 @@ def new_figure(width: float, height: float):
 
 
 def figure_bytes(figure, fmt: str) -> bytes:
-    """The figure as PNG or SVG bytes. SVG output carries no date, so reruns are identical."""
+    """The figure as PNG or SVG bytes.
+
+    SVG output carries no date and a fixed hash salt for its element ids, so reruns give
+    identical files.
+    """
+    import matplotlib
+
     buffer = io.BytesIO()
     metadata = {"Date": None} if fmt == "svg" else {"Software": None}
-    figure.savefig(buffer, format=fmt, metadata=metadata)
+    with matplotlib.rc_context({"svg.hashsalt": "profiles"}):
+        figure.savefig(buffer, format=fmt, metadata=metadata)
     return buffer.getvalue()

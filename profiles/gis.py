@@ -1,0 +1,179 @@
+"""GIS output: one GeoPackage (EPSG:4326) with the stations, segments, windows and warnings.
+
+Layers of ``profiles.gpkg``:
+
+``stations``
+    every input row, with its status (used, merged, dropped) and reason; a point at its
+    position, or an empty point where the row has no usable coordinate.
+``segments``
+    one line per segment through its stations, with the spacing-audit attributes of
+    :func:`profiles.spacing.audit_spacing`.
+``windows``
+    one line per window along its extent on the track, with every window attribute;
+    ``reasons`` is comma-separated text.
+``warnings``
+    one point per aliasing reason of every window at risk, at the window's centre, with the
+    reason, a message and the window's extent.
+
+Antimeridian: line geometries are cut where a track crosses +-180 degrees, the way RFC 7946
+(GeoJSON, section 3.1.9) asks, so that every longitude stays within [-180, 180]: such a track
+becomes a MultiLineString whose parts meet at the meridian (latitude interpolated linearly in
+longitude, exact to well under a metre over steps of a few km). When any feature of a layer is
+cut, the layer holds MultiLineStrings throughout.
+
+The GeoPackage is written through pyogrio to a temporary name and renamed into place
+(:meth:`profiles.outputs.OutputFolder.with_writer`). geopandas, shapely and pyogrio are
+imported here only, so that the numerical core never loads them.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .geometry import Segments
+from .spacing import SpacingAudit
+from .survey import Survey
+from .windows import WindowTable, track_paths
+
+#: Layers of the GeoPackage, in the order written.
+LAYERS = ("stations", "segments", "windows", "warnings")
+#: CRS of every layer.
+CRS = "EPSG:4326"
+
+
+def split_at_antimeridian(path: np.ndarray) -> list[np.ndarray]:
+    """Cut a path with continuous longitudes where it crosses +-180 degrees.
+
+    Parameters
+    ----------
+    path : ndarray, shape (k, 2)
+        (lon, lat) vertices in degrees; longitudes continuous along the path (unwrapped,
+        so they may leave [-180, 180)).
+
+    Returns
+    -------
+    list of ndarray
+        The parts, longitudes brought into [-180, 180]; consecutive parts share the crossing
+        point (at +180 on one side, -180 on the other).
+    """
+    path = np.asarray(path, dtype=float)
+    lon, lat = path[:, 0], path[:, 1]
+    sheet = np.floor((lon + 180.0) / 360.0).astype(np.int64)
+    parts, begin, head = [], 0, []
+    for i in np.flatnonzero(np.diff(sheet) != 0).tolist():
+        boundary = -180.0 + 360.0 * max(sheet[i], sheet[i + 1])
+        fraction = (boundary - lon[i]) / (lon[i + 1] - lon[i])
+        point = np.array([[boundary, lat[i] + fraction * (lat[i + 1] - lat[i])]])
+        parts.append(_shifted(np.vstack([*head, path[begin : i + 1], point]), sheet[i]))
+        head, begin = [point], i + 1
+    parts.append(_shifted(np.vstack([*head, path[begin:]]), sheet[begin]))
+    return [part for part in parts if part.shape[0] >= 2]
+
+
+def _shifted(part: np.ndarray, sheet: int) -> np.ndarray:
+    """A part moved by whole turns into [-180, 180], repeated vertices dropped."""
+    part = part - np.array([360.0 * sheet, 0.0])
+    keep = np.concatenate([[True], np.any(np.diff(part, axis=0) != 0, axis=1)])
+    return part[keep]
+
+
+def _lines(paths: list[np.ndarray]):
+    """Shapely geometries of paths: LineStrings, or MultiLineStrings where a path is cut."""
+    import shapely
+
+    geometries = []
+    for path in paths:
+        parts = split_at_antimeridian(path)
+        if len(parts) == 1:
+            geometries.append(shapely.linestrings(parts[0]))
+        else:
+            geometries.append(shapely.multilinestrings([shapely.linestrings(p) for p in parts]))
+    return geometries
+
+
+def _unwrapped(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
+    return np.column_stack([np.unwrap(np.asarray(lon, dtype=float), period=360.0), lat])
+
+
+def _frame(table: pd.DataFrame, geometry):
+    import geopandas
+
+    table = table.copy()
+    for column in table.columns:
+        values = table[column]
+        if values.dtype == object and values.map(lambda v: v is None or isinstance(v, bool | np.bool_)).all():
+            table[column] = values.astype("boolean")  # written as integers, empty where unknown
+    return geopandas.GeoDataFrame(table, geometry=geometry, crs=CRS)
+
+
+def station_layer(survey: Survey):
+    """Every input row as a point (empty where the row has no usable coordinate)."""
+    import shapely
+
+    stations = survey.stations.reset_index(drop=True)
+    lon = stations["lon"].to_numpy(dtype=float)
+    lat = stations["lat"].to_numpy(dtype=float)
+    usable = np.isfinite(lon) & np.isfinite(lat) & (np.abs(lat) <= 90.0) & (np.abs(lon) <= 180.0)
+    points = shapely.points(np.where(usable, lon, np.nan), np.where(usable, lat, np.nan))
+    points[~usable] = shapely.Point()
+    return _frame(stations, points)
+
+
+def segment_layer(segments: Segments, audit: SpacingAudit):
+    """One line per segment through its stations, with the spacing-audit attributes."""
+    paths = [_unwrapped(s.lon, s.lat) for s in segments]
+    return _frame(audit.segments.reset_index(drop=True), _lines(paths))
+
+
+def window_layer(windows: WindowTable):
+    """One line per window along its extent, with every window attribute."""
+    frame = windows.to_frame()
+    frame["reasons"] = [",".join(r) for r in frame["reasons"]]
+    paths = track_paths(windows.tracks, windows.track, windows.start, windows.end)
+    return _frame(frame, _lines(paths))
+
+
+def warning_layer(windows: WindowTable):
+    """One point per aliasing reason of every window at risk, at the window's centre."""
+    import shapely
+
+    table = windows.aliasing_table()
+    index = table["window"].to_numpy()
+    extra = {
+        "local_spacing_km": windows.local_spacing[index] / 1e3,
+        "local_spacing_max_km": windows.local_spacing_max[index] / 1e3,
+        "local_nyquist_km": windows.local_nyquist[index] / 1e3,
+        "dominant_wavelength_km": windows.dominant_wavelength[index] / 1e3,
+        "rolloff_share": windows.rolloff_share[index],
+    }
+    table = table.assign(**extra)
+    points = shapely.points(table["lon"].to_numpy(dtype=float), table["lat"].to_numpy(dtype=float))
+    return _frame(table, points)
+
+
+def write_geopackage(
+    path: str | Path,
+    *,
+    survey: Survey,
+    segments: Segments,
+    audit: SpacingAudit,
+    windows: WindowTable,
+) -> Path:
+    """Write the four layers of :data:`LAYERS` into one GeoPackage at ``path``.
+
+    ``path`` is written directly; callers that need an atomic write pass a temporary path
+    (see :meth:`profiles.outputs.OutputFolder.with_writer`).
+    """
+    layers = {
+        "stations": station_layer(survey),
+        "segments": segment_layer(segments, audit),
+        "windows": window_layer(windows),
+        "warnings": warning_layer(windows),
+    }
+    path = Path(path)
+    for name in LAYERS:
+        layers[name].to_file(path, layer=name, driver="GPKG", engine="pyogrio")
+    return path

@@ -1,0 +1,140 @@
+"""The GeoPackage of stations, segments, windows and warnings.
+
+Outside references named beside the checks:
+- geopandas / pyogrio (GDAL's GeoPackage driver) to read the file back: the OGC GeoPackage
+  standard is what any GIS opens;
+- pyproj.CRS for EPSG:4326 and pyproj.Geod.geometry_length (Karney 2013) for line lengths;
+- RFC 7946 section 3.1.9 (antimeridian cutting) for lines that cross +-180 degrees.
+"""
+
+from __future__ import annotations
+
+import geopandas
+import numpy as np
+import pyogrio
+import pytest
+from conftest import GEOD, walk
+from pyproj import CRS
+
+from profiles.geometry import build_segments
+from profiles.gis import LAYERS, split_at_antimeridian, write_geopackage
+from profiles.outputs import OutputFolder
+from profiles.resample import resample
+from profiles.spacing import audit_spacing
+from profiles.survey import Survey
+from profiles.windows import along_track_windows
+
+
+def build(start=(12.0, 55.0), bad_rows=True):
+    lon1, lat1 = walk(*start, [(100, 200, 250.0), (100, 10, 2000.0), (100, 200, 250.0)])
+    lon2, lat2 = walk(start[0], start[1] + 0.2, [(95, 240, 250.0)])
+    lon = np.concatenate([lon1, lon2])
+    lat = np.concatenate([lat1, lat2])
+    line = np.array(["P1"] * lon1.size + ["P2"] * lon2.size)
+    distance = np.concatenate([250.0 * np.arange(lon1.size), 250.0 * np.arange(lon2.size)])
+    values = 50 * np.cos(2 * np.pi * distance / 4500.0) + np.random.default_rng(0).normal(0, 2, lon.size)
+    if bad_rows:
+        lat[[5, 300]] = np.nan  # no coordinate: empty geometry, dropped with a reason
+    survey = Survey.from_arrays(line=line, lon=lon, lat=lat, values={"depth_m": values})
+    segments = build_segments(survey)
+    tracks = [resample(s, "depth_m") for s in segments]
+    windows = along_track_windows(tracks, window=12e3, step=4e3, shortest_wavelength=2.5e3)
+    audit = audit_spacing(segments, shortest_wavelength=2.5e3)
+    return segments, audit, windows
+
+
+@pytest.fixture(scope="module")
+def written(tmp_path_factory):
+    segments, audit, windows = build()
+    path = tmp_path_factory.mktemp("gis") / "profiles.gpkg"
+    write_geopackage(path, survey=segments.survey, segments=segments, audit=audit, windows=windows)
+    return path, segments, audit, windows
+
+
+def test_four_layers_in_epsg_4326(written):
+    path = written[0]
+    names = [name for name, _ in pyogrio.list_layers(path)]  # GDAL's GeoPackage driver
+    assert names == list(LAYERS)
+    for name in LAYERS:
+        frame = geopandas.read_file(path, layer=name)
+        assert CRS.from_user_input(frame.crs) == CRS.from_epsg(4326)
+
+
+def test_stations_keep_every_row_with_status_and_reason(written):
+    path, segments, _, _ = written
+    stations = geopandas.read_file(path, layer="stations")
+    survey = segments.survey
+    assert len(stations) == len(survey.stations) == survey.accounting.read
+    dropped = stations[stations["status"] == "dropped"]
+    assert len(dropped) == 2 and set(dropped["reason"]) == {"missing coordinate"}
+    assert dropped.geometry.is_empty.all()
+    used = stations[stations["status"] == "used"]
+    assert not used.geometry.is_empty.any()
+    np.testing.assert_allclose(used.geometry.x, used["lon"])
+
+
+def test_segments_carry_the_spacing_audit(written):
+    path, segments, audit, _ = written
+    layer = geopandas.read_file(path, layer="segments")
+    assert len(layer) == len(segments) == len(audit.segments)
+    assert set(audit.segments.columns) <= set(layer.columns)
+    np.testing.assert_allclose(layer["spacing_max_km"], audit.segments["spacing_max_km"])
+    # Geodesic length of each line (pyproj.Geod, Karney 2013) equals the segment length.
+    lengths = np.array([GEOD.geometry_length(g) for g in layer.geometry]) / 1e3
+    np.testing.assert_allclose(lengths, layer["length_km"], rtol=1e-6)
+
+
+def test_windows_and_warnings(written):
+    path, _, _, windows = written
+    layer = geopandas.read_file(path, layer="windows")
+    assert len(layer) == len(windows)
+    frame = windows.to_frame()
+    assert set(frame.columns) <= set(layer.columns)
+    assert list(layer["reasons"]) == [",".join(r) for r in windows.reasons()]
+    assert layer["aliasing_risk"].sum() == windows.aliasing_risk.sum() > 0
+    # Each window's line runs along its extent: geodesic length = end - start.
+    lengths = np.array([GEOD.geometry_length(g) for g in layer.geometry])
+    np.testing.assert_allclose(lengths, windows.end - windows.start, rtol=1e-4)
+    warnings = geopandas.read_file(path, layer="warnings")
+    assert len(warnings) == sum(len(r) for r in windows.reasons())
+    assert set(warnings["reason"]) <= {"spacing", "rolloff", "near-nyquist"}
+    assert (warnings.geom_type == "Point").all()
+    assert warnings["message"].str.contains("km").all()
+
+
+def test_written_through_the_output_folder_atomically(tmp_path):
+    segments, audit, windows = build(bad_rows=False)
+    folder = OutputFolder(tmp_path / "out", ["profiles.gpkg"])
+    folder.with_writer("profiles.gpkg", lambda p: write_geopackage(
+        p, survey=segments.survey, segments=segments, audit=audit, windows=windows))
+    assert [p.name for p in (tmp_path / "out").iterdir()] == ["profiles.gpkg"]
+
+
+def test_antimeridian_cut():
+    # RFC 7946 section 3.1.9: cut at the meridian; parts meet at +180 / -180.
+    path = np.column_stack([np.linspace(179.5, 180.6, 12), np.linspace(0.0, 1.0, 12)])
+    east, west = split_at_antimeridian(path)
+    assert east[-1, 0] == 180.0 and west[0, 0] == -180.0 and east[-1, 1] == west[0, 1]
+    assert np.all(np.abs(np.concatenate([east, west])[:, 0]) <= 180.0)
+    # A vertex exactly on the meridian, and a path crossing westwards.
+    parts = split_at_antimeridian(np.array([[179.9, 0.0], [180.0, 1.0], [180.1, 2.0]]))
+    assert [p.shape[0] for p in parts] == [2, 2]
+    parts = split_at_antimeridian(np.array([[-179.9, 0.0], [-180.1, 1.0]]))
+    assert parts[0][-1, 0] == -180.0 and parts[1][0, 0] == 180.0
+    (whole,) = split_at_antimeridian(np.array([[10.0, 0.0], [11.0, 1.0]]))
+    np.testing.assert_array_equal(whole, [[10.0, 0.0], [11.0, 1.0]])
+
+
+def test_layers_across_the_antimeridian(tmp_path):
+    segments, audit, windows = build(start=(179.7, -16.0), bad_rows=False)
+    path = write_geopackage(tmp_path / "p.gpkg", survey=segments.survey, segments=segments, audit=audit,
+                            windows=windows)
+    layer = geopandas.read_file(path, layer="windows")
+    bounds = layer.geometry.bounds
+    assert (bounds["minx"] >= -180.0).all() and (bounds["maxx"] <= 180.0).all()
+    assert (layer.geom_type == "MultiLineString").all()
+    # Cut lines keep their geodesic length (pyproj.Geod).
+    lengths = np.array([GEOD.geometry_length(g) for g in layer.geometry])
+    np.testing.assert_allclose(lengths, windows.end - windows.start, rtol=1e-4)
+    crossing = [g for g in layer.geometry if len(g.geoms) == 2]
+    assert crossing
