@@ -1,0 +1,703 @@
+"""Significance of spectral peaks: Fisher's g test (white noise) and an AR(1) red-noise test.
+
+Both tests work on the harmonic variances of :func:`profiles.spectral.harmonic_variances`
+(untapered, Fourier wavenumbers) and both run on one series or on many series of the same
+length at once (series along the last axis), for along-track windows.
+
+Fisher's g (Fisher 1929). With s_k^2 the variance of harmonic k, the statistic is
+g = max_k s_k^2 / sum_k s_k^2 over k = 1..m, m = floor((N - 1)/2): the mean (k = 0) is
+removed, and the Nyquist harmonic of even N is left out because it carries one degree of
+freedom, not two. Under Gaussian white noise the exact tail probability is
+
+    P(g > x) = sum_{j=1}^{min(m, floor(1/x))} (-1)^(j-1) C(m, j) (1 - j x)^(m-1).
+
+Red noise (Gilman, Fuglister and Mitchell 1963; Torrence and Compo 1998). An AR(1) process
+with lag-1 coefficient r has, at harmonic k of N samples, the spectrum relative to white
+noise of the same variance
+
+    P_k = (1 - r^2) / (1 + r^2 - 2 r cos(2 pi k / N)),
+
+and a harmonic variance is distributed as its expectation times chi2_nu / nu with nu = 2
+(nu = 1 at the Nyquist harmonic of even N). Details: docs/methods-spectral.md.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+
+from ..errors import InputError
+from .harmonics import harmonic_variances
+from .preprocess import (
+    Detrend,
+    as_values,
+    check_option,
+    check_probability,
+    check_spacing,
+    remove_trend,
+)
+
+__all__ = [
+    "FisherTest",
+    "Lag1Estimator",
+    "RedNoiseTest",
+    "ar1_background",
+    "fisher_critical_value",
+    "fisher_critical_value_approx",
+    "fisher_from_variances",
+    "fisher_m",
+    "fisher_p_value",
+    "fisher_test",
+    "lag1_autocorrelation",
+    "red_noise_from_variances",
+    "red_noise_test",
+]
+
+#: Estimator of the AR(1) coefficient: ``"sample"`` is the lag-1 autocorrelation of the
+#: detrended series; ``"corrected"`` adds the first-order bias correction (N r + 1)/(N - 3)
+#: for a series whose mean was estimated (Marriott and Pope 1954, from memory).
+Lag1Estimator = Literal["sample", "corrected"]
+
+#: Largest |r| used for the AR(1) background; closer to 1 the background is singular.
+_LAG1_LIMIT = 0.999
+
+# Above this size of the largest term of Fisher's alternating series, float64 loses more
+# than about 1e-13 of the result to cancellation; such p-values (all above about 0.998) are
+# summed again in decimal arithmetic.
+_LARGEST_FLOAT_TERM = 1.0e2
+
+
+# --------------------------------------------------------------------------------------------
+# Fisher's g: exact distribution
+# --------------------------------------------------------------------------------------------
+
+
+def fisher_m(n: int) -> int:
+    """Number of harmonics in Fisher's test for N samples: m = floor((N - 1)/2).
+
+    That is (N - 1)/2 for odd N and N/2 - 1 for even N: k = 0 (the mean) and the Nyquist
+    harmonic of even N are excluded (Fisher 1929; the convention of Percival and Walden
+    1993 section 10.9 and Brockwell and Davis 1991 section 10.2, from memory).
+    """
+    return (int(n) - 1) // 2
+
+
+def _check_m(m: object) -> int:
+    if isinstance(m, bool) or not isinstance(m, int | np.integer) or m < 2:
+        raise InputError(f"m: {m!r} must be an integer >= 2 (N >= 5 samples)")
+    return int(m)
+
+
+def _decimal_tail(x: float, m: int, digits: int) -> float:
+    """Fisher's series for one x, in decimal arithmetic of ``digits`` significant digits.
+
+    The terms are unimodal in j (log C(m, j) and (m - 1) log(1 - j x) are both concave), so
+    once past the largest term the sum stops when a term falls below 10^-digits of it.
+    """
+    from decimal import Decimal, localcontext
+
+    with localcontext() as context:
+        context.prec = digits
+        exact_x = Decimal(x)
+        total = Decimal(0)
+        largest = Decimal(0)
+        previous = Decimal(0)
+        cutoff = Decimal(10) ** -digits
+        for j in range(1, m + 1):
+            base = 1 - j * exact_x
+            if base <= 0:
+                break
+            term = math.comb(m, j) * base ** (m - 1)
+            total += term if j % 2 else -term
+            largest = max(largest, term)
+            if term < previous and term < largest * cutoff:
+                break
+            previous = term
+        return float(total)
+
+
+def fisher_p_value(g: object, *, m: int) -> np.ndarray | float:
+    """Exact probability that Fisher's g exceeds ``g`` under Gaussian white noise.
+
+    P(g > x) = sum_{j=1}^{min(m, floor(1/x))} (-1)^(j-1) C(m, j) (1 - j x)^(m-1)
+    (Fisher 1929; also Fuller 1996, p. 363).
+
+    Parameters
+    ----------
+    g : float or array_like
+        Observed statistic(s), 0 <= g <= 1, all for the same ``m``.
+    m : int
+        Number of harmonics in the test, m >= 2 (see :func:`fisher_m`).
+
+    Returns
+    -------
+    float or ndarray
+        p-values, shaped like ``g``.
+
+    Notes
+    -----
+    Computed stably, vectorised over ``g``:
+
+    - the terms are formed in log space, log C(m, j) + (m - 1) log1p(-j x), with
+      log C(m, j) accumulated as a sum of logarithms (no large factorials);
+    - the terms rise then fall with j, so the sum stops once past the largest term and
+      below e^-45 of it (an alternating tail is smaller than its first term);
+    - g <= 1/m gives 1, g >= 1 gives 0; where the upper bound
+      (1 - (1 - x)^(m-1))^m on 1 - p (the spacings of uniform points are negatively
+      associated; Joag-Dev and Proschan 1983, from memory) is below 1e-17, p is 1 to double
+      precision;
+    - where the largest term exceeds 100 (p above about 0.998, where float64 cancellation
+      would cost more than about 1e-13), the series is summed again in decimal arithmetic
+      with enough digits.
+
+    Examples
+    --------
+    >>> round(fisher_p_value(0.5, m=10), 10)  # 10 * 2**-9, exact
+    0.01953125
+    """
+    m = _check_m(m)
+    values = np.asarray(g, dtype=np.float64)
+    if not np.all(np.isfinite(values)) or np.any((values < 0) | (values > 1)):
+        raise InputError("g: Fisher's statistic must lie between 0 and 1")
+    flat = values.ravel()
+    result = np.ones(flat.shape)
+    result[flat >= 1.0] = 0.0
+    live = np.flatnonzero((flat > 1.0 / m) & (flat < 1.0))
+    x = flat[live]
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        log_bound = m * np.log1p(-np.exp((m - 1) * np.log1p(-x)))
+    uncertain = log_bound >= math.log(1e-17)
+    live, x = live[uncertain], x[uncertain]
+
+    total = np.zeros(x.shape)
+    largest = np.full(x.shape, -np.inf)
+    previous = np.full(x.shape, -np.inf)
+    active = np.arange(x.size)
+    log_binomial = 0.0
+    for j in range(1, m + 1):
+        if active.size == 0:
+            break
+        log_binomial += math.log(m - j + 1) - math.log(j)
+        base = -j * x[active]
+        open_ = base > -1.0
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+            log_term = np.where(open_, log_binomial + (m - 1) * np.log1p(base), -np.inf)
+            term = np.exp(log_term)
+        total[active] += term if j % 2 else -term
+        past_peak = (log_term < previous[active]) & (log_term < largest[active] - 45.0)
+        largest[active] = np.maximum(largest[active], log_term)
+        previous[active] = log_term
+        active = active[open_ & ~past_peak]
+    result[live] = total
+
+    cancelled = np.flatnonzero(largest > math.log(_LARGEST_FLOAT_TERM))
+    for index in cancelled:
+        digits = 25 + int(largest[index] / math.log(10.0))
+        result[live[index]] = _decimal_tail(float(x[index]), m, digits)
+    result = np.clip(result, 0.0, 1.0).reshape(values.shape)
+    return float(result) if result.ndim == 0 else result
+
+
+def fisher_critical_value(*, m: int, alpha: float = 0.05) -> float:
+    """Exact critical value g_alpha of Fisher's test: P(g > g_alpha) = alpha.
+
+    Found by Brent's root finding on the exact tail of :func:`fisher_p_value`, which falls
+    monotonically from 1 at g = 1/m to 0 at g = 1 (the method used for the published tables,
+    e.g. Nowroozi 1967, from memory).
+    """
+    from scipy.optimize import brentq
+
+    m = _check_m(m)
+    alpha = check_probability(alpha, what="alpha")
+    return float(
+        brentq(
+            lambda g: fisher_p_value(g, m=m) - alpha,
+            1.0 / m,
+            1.0,
+            xtol=1e-15,
+            rtol=4.0 * np.finfo(float).eps,
+            maxiter=200,
+        )
+    )
+
+
+def fisher_critical_value_approx(*, m: int, alpha: float = 0.05) -> float:
+    """The common approximation g_alpha ~ 1 - (alpha/m)^(1/(m-1)).
+
+    It keeps the first term of Fisher's series only; it is exact when g_alpha >= 1/2 and
+    slightly too high (conservative) otherwise.
+    """
+    m = _check_m(m)
+    alpha = check_probability(alpha, what="alpha")
+    return float(1.0 - (alpha / m) ** (1.0 / (m - 1)))
+
+
+@dataclass(frozen=True)
+class FisherTest:
+    """Result of Fisher's g test for a periodic component in white noise.
+
+    For one series every array attribute is a scalar; for a batch of series of shape
+    (..., N) the per-series attributes have shape (...).
+
+    Attributes
+    ----------
+    g : float or ndarray
+        max s_k^2 / sum s_k^2 over harmonics k = 1..m.
+    m : int
+        Harmonics in the test, floor((N - 1)/2): the mean and the Nyquist harmonic of even
+        N are excluded.
+    p_value : float or ndarray
+        Exact P(g_null > g) under Gaussian white noise.
+    g_critical : float
+        Exact critical value at ``alpha``.
+    g_critical_approx : float
+        1 - (alpha/m)^(1/(m-1)).
+    alpha : float
+        Significance level.
+    dominant_k : int or ndarray
+        Harmonic with the largest variance among k = 1..m.
+    dominant_wavelength : float or ndarray
+        N dx / dominant_k, metres.
+    significant : bool or ndarray
+        ``p_value < alpha`` (equivalently g > g_critical).
+    n : int
+        Samples per series.
+    spacing : float
+        Sample spacing, metres.
+    null : str
+        The null hypothesis, ``"white noise"``.
+    """
+
+    g: np.ndarray | float
+    m: int
+    p_value: np.ndarray | float
+    g_critical: float
+    g_critical_approx: float
+    alpha: float
+    dominant_k: np.ndarray | int
+    dominant_wavelength: np.ndarray | float
+    significant: np.ndarray | bool
+    n: int
+    spacing: float
+    null: str = "white noise"
+
+    def to_frame(self):
+        """One row per series; columns ``g``, ``m``, ``p_value``, ``g_critical``,
+        ``g_critical_approx``, ``alpha``, ``dominant_k``, ``dominant_wavelength_km``,
+        ``significant``, ``null``."""
+        import pandas as pd
+
+        return pd.DataFrame(
+            {
+                "g": np.ravel(self.g),
+                "m": self.m,
+                "p_value": np.ravel(self.p_value),
+                "g_critical": self.g_critical,
+                "g_critical_approx": self.g_critical_approx,
+                "alpha": self.alpha,
+                "dominant_k": np.ravel(self.dominant_k),
+                "dominant_wavelength_km": np.ravel(self.dominant_wavelength) / 1000.0,
+                "significant": np.ravel(self.significant),
+                "null": self.null,
+            }
+        )
+
+    def __str__(self) -> str:
+        head = (
+            f"Fisher's g test (null: {self.null}), m = {self.m} harmonics k = 1..{self.m} "
+            f"of N = {self.n}, alpha = {self.alpha:g}"
+        )
+        crit = (
+            f"  critical g: {self.g_critical:.6g} exact, {self.g_critical_approx:.6g} "
+            f"approximate"
+        )
+        if np.ndim(self.g) == 0:
+            verdict = "significant" if self.significant else "not significant"
+            return "\n".join(
+                [
+                    head,
+                    f"  g = {float(self.g):.6g} at k = {int(self.dominant_k)} "
+                    f"(wavelength {float(self.dominant_wavelength) / 1000.0:.6g} km), "
+                    f"p = {float(self.p_value):.3g}: {verdict}",
+                    crit,
+                ]
+            )
+        count = int(np.sum(self.significant))
+        return "\n".join(
+            [head, f"  {np.size(self.g)} series, {count} significant", crit]
+        )
+
+
+def _scalar_or_array(array: np.ndarray):
+    return array.item() if array.ndim == 0 else array
+
+
+def fisher_from_variances(
+    variances: object, *, n: int, spacing: float, alpha: float = 0.05
+) -> FisherTest:
+    """Fisher's g test from harmonic variances already computed.
+
+    Parameters
+    ----------
+    variances : array_like, shape (..., N//2 + 1)
+        Output of :func:`harmonic_variances` (untapered) for series of N samples.
+    n : int
+        Samples per series N (it fixes m and whether a Nyquist entry is present).
+    spacing : float
+        Sample spacing, metres (for the dominant wavelength).
+    alpha : float
+        Significance level.
+
+    Returns
+    -------
+    FisherTest
+    """
+    dx = check_spacing(spacing)
+    alpha = check_probability(alpha, what="alpha")
+    array = np.asarray(variances, dtype=np.float64)
+    n = int(n)
+    if array.shape[-1] != n // 2 + 1:
+        raise InputError(
+            f"variances: last axis has {array.shape[-1]} entries; {n} samples give {n // 2 + 1}"
+        )
+    m = _check_m(fisher_m(n))
+    tested = array[..., 1 : m + 1]
+    total = tested.sum(axis=-1)
+    peak = tested.max(axis=-1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        g = np.where(total > 0, peak / np.where(total > 0, total, 1.0), 1.0 / m)
+    dominant = np.argmax(tested, axis=-1) + 1
+    p_value = np.asarray(fisher_p_value(g, m=m))
+    return FisherTest(
+        g=_scalar_or_array(np.asarray(g)),
+        m=m,
+        p_value=_scalar_or_array(p_value),
+        g_critical=fisher_critical_value(m=m, alpha=alpha),
+        g_critical_approx=fisher_critical_value_approx(m=m, alpha=alpha),
+        alpha=alpha,
+        dominant_k=_scalar_or_array(dominant),
+        dominant_wavelength=_scalar_or_array(n * dx / dominant),
+        significant=_scalar_or_array(p_value < alpha),
+        n=n,
+        spacing=dx,
+    )
+
+
+def fisher_test(
+    values: object, *, spacing: float, detrend: Detrend = "linear", alpha: float = 0.05
+) -> FisherTest:
+    """Fisher's g test for one hidden periodicity in Gaussian white noise.
+
+    The series is detrended and analysed without a taper at the Fourier wavenumbers (the
+    test's assumptions: independent chi2_2 ordinates under the null).
+
+    Parameters
+    ----------
+    values : array_like, shape (N,) or (..., N)
+        One series, or many of the same length along the last axis; N >= 5.
+    spacing : float
+        Sample spacing, metres.
+    detrend : {"linear", "mean"}
+        Removed before the transform.
+    alpha : float
+        Significance level (default 0.05).
+
+    Returns
+    -------
+    FisherTest
+
+    Notes
+    -----
+    The null hypothesis is white noise. Survey profiles are usually red (power rising
+    towards long wavelengths), where this test flags long-wavelength harmonics that are
+    only the background; use :func:`red_noise_test` for them.
+    """
+    variances = harmonic_variances(values, detrend=detrend)
+    count = np.shape(values)[-1]
+    return fisher_from_variances(variances, n=count, spacing=spacing, alpha=alpha)
+
+
+# --------------------------------------------------------------------------------------------
+# Red noise: AR(1) background
+# --------------------------------------------------------------------------------------------
+
+
+def lag1_autocorrelation(
+    values: object, *, detrend: Detrend = "linear", estimator: Lag1Estimator = "sample"
+) -> np.ndarray | float:
+    """Lag-1 autocorrelation of the detrended series, the AR(1) coefficient estimate.
+
+    r = sum_{j=0}^{N-2} y_j y_{j+1} / sum_{j=0}^{N-1} y_j^2 on the residual y after
+    removing the mean or line (the usual sample autocorrelation; Box and Jenkins 1976,
+    from memory). ``estimator="corrected"`` returns (N r + 1)/(N - 3), removing the
+    first-order bias E[r] ~ rho - (1 + 3 rho)/N of the sample estimate (Marriott and Pope
+    1954, from memory). Vectorised along the last axis.
+    """
+    check_option(estimator, Lag1Estimator, what="lag1 estimator")
+    array = as_values(values, min_length=5, batched=True)
+    residual, _, _ = remove_trend(array, detrend)
+    numerator = np.einsum("...j,...j->...", residual[..., :-1], residual[..., 1:])
+    denominator = np.einsum("...j,...j->...", residual, residual)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r = np.where(denominator > 0, numerator / np.where(denominator > 0, denominator, 1), 0.0)
+    if estimator == "corrected":
+        count = array.shape[-1]
+        r = (count * r + 1.0) / (count - 3.0)
+    return _scalar_or_array(np.clip(r, -_LAG1_LIMIT, _LAG1_LIMIT))
+
+
+def ar1_background(lag1: object, *, n: int, variance: object) -> np.ndarray:
+    """Expected variance of each harmonic for AR(1) noise with the observed total variance.
+
+    B_k = V d_k P_k / sum_{j>=1} d_j P_j for k = 1..N//2, with
+    P_k = (1 - r^2)/(1 + r^2 - 2 r cos(2 pi k/N)) (Gilman, Fuglister and Mitchell 1963;
+    Torrence and Compo 1998, eq. 16, from memory), d_k = 1, and d = 1/2 at the Nyquist
+    harmonic of even N (one degree of freedom there). The background therefore adds up to V,
+    the total variance of the harmonics k >= 1; for r = 0 it is V * 2/(N - 1) per harmonic.
+    Entry k = 0 is 0.
+
+    Parameters
+    ----------
+    lag1 : float or array_like, shape (...)
+        AR(1) coefficient(s), |r| < 1.
+    n : int
+        Samples per series.
+    variance : float or array_like, shape (...)
+        Total variance V of the harmonics k >= 1 (field units squared).
+
+    Returns
+    -------
+    ndarray, shape (..., N//2 + 1)
+    """
+    r = np.clip(np.asarray(lag1, dtype=np.float64), -_LAG1_LIMIT, _LAG1_LIMIT)[..., np.newaxis]
+    n = int(n)
+    harmonic = np.arange(n // 2 + 1)
+    shape = (1.0 - r**2) / (1.0 + r**2 - 2.0 * r * np.cos(2.0 * np.pi * harmonic / n))
+    weight = np.ones(harmonic.shape)
+    weight[0] = 0.0
+    if n % 2 == 0:
+        weight[-1] = 0.5
+    shape = shape * weight
+    total = np.asarray(variance, dtype=np.float64)[..., np.newaxis]
+    return total * shape / shape.sum(axis=-1, keepdims=True)
+
+
+@dataclass(frozen=True)
+class RedNoiseTest:
+    """Result of the test of each harmonic against an AR(1) (red-noise) background.
+
+    For one series the per-harmonic arrays have shape (N//2 + 1,); for a batch of shape
+    (..., N) they have shape (..., N//2 + 1) and ``lag1`` has shape (...).
+
+    Attributes
+    ----------
+    lag1 : float or ndarray
+        AR(1) coefficient of the background.
+    variance : ndarray
+        Observed variance of each harmonic, field units squared.
+    background : ndarray
+        Expected variance of each harmonic under the AR(1) null, scaled to the observed total
+        (see :func:`ar1_background`).
+    threshold : ndarray
+        background * chi2_nu(1 - alpha) / nu, nu = 2 (1 at the Nyquist harmonic of even N);
+        ``inf`` at k = 0.
+    significant : ndarray of bool
+        variance > threshold (never at k = 0).
+    wavenumber : ndarray
+        k / (N dx), cycles per metre.
+    alpha : float
+        Level of each per-harmonic test (not corrected for the number of harmonics tested:
+        about alpha of the harmonics of pure red noise are flagged).
+    n : int
+        Samples per series.
+    spacing : float
+        Sample spacing, metres.
+    lag1_estimator : str
+        ``"sample"``, ``"corrected"`` or ``"given"``.
+    null : str
+        ``"red noise (AR(1))"``.
+    significant_k : ndarray of int
+        Harmonic numbers flagged (one series only).
+    """
+
+    lag1: np.ndarray | float
+    variance: np.ndarray = field(repr=False)
+    background: np.ndarray = field(repr=False)
+    threshold: np.ndarray = field(repr=False)
+    significant: np.ndarray = field(repr=False)
+    wavenumber: np.ndarray = field(repr=False)
+    alpha: float
+    n: int
+    spacing: float
+    lag1_estimator: str
+    null: str = "red noise (AR(1))"
+
+    @property
+    def significant_k(self) -> np.ndarray:
+        """Harmonic numbers above the threshold (one series only)."""
+        if self.significant.ndim != 1:
+            raise InputError("significant_k is defined for one series; use .significant")
+        return np.flatnonzero(self.significant)
+
+    def to_frame(self):
+        """One row per harmonic (and per series for a batch, in column ``series``).
+
+        Columns: ``harmonic``, ``wavenumber_per_km``, ``wavelength_km``, ``variance``,
+        ``background``, ``threshold`` (field units squared), ``significant``, ``lag1``.
+        """
+        import pandas as pd
+
+        rows = int(np.prod(self.variance.shape[:-1]))
+        count = self.variance.shape[-1]
+        with np.errstate(divide="ignore"):
+            wavelength = 1.0 / self.wavenumber
+        frame = pd.DataFrame(
+            {
+                "harmonic": np.tile(np.arange(count), rows),
+                "wavenumber_per_km": np.tile(self.wavenumber * 1000.0, rows),
+                "wavelength_km": np.tile(wavelength / 1000.0, rows),
+                "variance": self.variance.ravel(),
+                "background": self.background.ravel(),
+                "threshold": self.threshold.ravel(),
+                "significant": self.significant.ravel(),
+                "lag1": np.repeat(np.ravel(self.lag1), count),
+            }
+        )
+        if self.variance.ndim > 1:
+            frame.insert(0, "series", np.repeat(np.arange(rows), count))
+        return frame
+
+    def __str__(self) -> str:
+        head = (
+            f"Red-noise test (null: {self.null}), N = {self.n}, alpha = {self.alpha:g} per "
+            f"harmonic"
+        )
+        if self.significant.ndim != 1:
+            flagged = int(self.significant.sum())
+            return f"{head}\n  {np.size(self.lag1)} series, {flagged} harmonics flagged in all"
+        lines = [head, f"  lag-1 coefficient {float(self.lag1):.4f} ({self.lag1_estimator})"]
+        flagged = self.significant_k
+        if flagged.size == 0:
+            lines.append("  no harmonic above the red-noise threshold")
+        else:
+            lines.append(f"  {'k':>6} {'wavelength_km':>14} {'variance':>12} {'threshold':>12}")
+            for k in flagged[np.argsort(self.variance[flagged])[::-1]][:10]:
+                lines.append(
+                    f"  {int(k):>6} {1.0 / self.wavenumber[k] / 1000.0:>14.6g} "
+                    f"{self.variance[k]:>12.6g} {self.threshold[k]:>12.6g}"
+                )
+        return "\n".join(lines)
+
+
+def red_noise_from_variances(
+    variances: object,
+    *,
+    n: int,
+    lag1: object,
+    spacing: float,
+    alpha: float = 0.05,
+    lag1_estimator: str = "given",
+) -> RedNoiseTest:
+    """Red-noise test from harmonic variances and lag-1 coefficients already computed.
+
+    Parameters
+    ----------
+    variances : array_like, shape (..., N//2 + 1)
+        Output of :func:`harmonic_variances` (untapered).
+    n : int
+        Samples per series.
+    lag1 : float or array_like, shape (...)
+        AR(1) coefficient of each series (e.g. from :func:`lag1_autocorrelation`).
+    spacing : float
+        Sample spacing, metres.
+    alpha : float
+        Level of the test at each harmonic.
+    lag1_estimator : str
+        Label recorded in the result.
+
+    Returns
+    -------
+    RedNoiseTest
+    """
+    from scipy.stats import chi2
+
+    dx = check_spacing(spacing)
+    alpha = check_probability(alpha, what="alpha")
+    array = np.asarray(variances, dtype=np.float64)
+    n = int(n)
+    if array.shape[-1] != n // 2 + 1:
+        raise InputError(
+            f"variances: last axis has {array.shape[-1]} entries; {n} samples give {n // 2 + 1}"
+        )
+    total = array[..., 1:].sum(axis=-1)
+    background = ar1_background(lag1, n=n, variance=total)
+    dof = np.full(n // 2 + 1, 2.0)
+    if n % 2 == 0:
+        dof[-1] = 1.0
+    threshold = background * (chi2.ppf(1.0 - alpha, dof) / dof)
+    threshold[..., 0] = np.inf
+    significant = array > threshold
+    return RedNoiseTest(
+        lag1=_scalar_or_array(np.clip(np.asarray(lag1, dtype=np.float64), -1.0, 1.0)),
+        variance=array,
+        background=background,
+        threshold=threshold,
+        significant=significant,
+        wavenumber=np.arange(n // 2 + 1) / (n * dx),
+        alpha=alpha,
+        n=n,
+        spacing=dx,
+        lag1_estimator=lag1_estimator,
+    )
+
+
+def red_noise_test(
+    values: object,
+    *,
+    spacing: float,
+    detrend: Detrend = "linear",
+    alpha: float = 0.05,
+    lag1_estimator: Lag1Estimator = "corrected",
+) -> RedNoiseTest:
+    """Test every harmonic against an AR(1) red-noise background.
+
+    The lag-1 coefficient is estimated from the detrended series
+    (:func:`lag1_autocorrelation`), the background spectrum of AR(1) noise with that
+    coefficient is scaled to the observed total variance (:func:`ar1_background`), and
+    harmonic k is flagged where its variance exceeds background_k * chi2_2(1 - alpha)/2
+    (chi2_1(1 - alpha) at the Nyquist harmonic of even N): the test of Gilman, Fuglister
+    and Mitchell (1963) in the form of Torrence and Compo (1998), eqs. 16-18 (equation
+    numbers from memory).
+
+    Parameters
+    ----------
+    values : array_like, shape (N,) or (..., N)
+        One series or many of the same length along the last axis; N >= 5.
+    spacing : float
+        Sample spacing, metres.
+    detrend : {"linear", "mean"}
+        Removed before estimating r and the harmonic variances.
+    alpha : float
+        Level of the test at each harmonic (default 0.05).
+    lag1_estimator : {"corrected", "sample"}
+        ``"corrected"`` (default) reduces the downward bias of the sample autocorrelation,
+        which would otherwise under-estimate the background at long wavelengths.
+
+    Returns
+    -------
+    RedNoiseTest
+    """
+    array = as_values(values, min_length=5, batched=True)
+    variances = harmonic_variances(array, detrend=detrend)
+    lag1 = lag1_autocorrelation(array, detrend=detrend, estimator=lag1_estimator)
+    return red_noise_from_variances(
+        variances,
+        n=array.shape[-1],
+        lag1=lag1,
+        spacing=spacing,
+        alpha=alpha,
+        lag1_estimator=lag1_estimator,
+    )
