@@ -790,7 +790,9 @@ def readme_text(survey: dict) -> str:
         f"- `survey.csv`: {count['data_rows']} data rows after one header line; columns "
         + ", ".join(f"`{name}`" for name in COLUMNS)
         + ".",
-        "- `survey.toml`: survey configuration (input, columns, fields, windows, significance).",
+        "- `survey.toml`: survey configuration (input, columns, fields, windows, significance,",
+        "  spectrum and coherence methods); `profiles report --config survey.toml --out DIR` runs",
+        "  the whole analysis.",
         "- `make_demo.py`: runs the generator, `profiles/demo_survey.py` (numpy, scipy, pyproj;",
         f"  seed {SEED}). `python demo_data/make_demo.py` rewrites all three files byte for",
         "  byte; `profiles.demo_survey.write_demo(out_dir)` does the same from Python.",
@@ -960,6 +962,19 @@ def config_text() -> str:
             "",
             "[significance]",
             "alpha = 0.05",
+            "",
+            "[spectrum]",
+            "# Density of every segment: multitaper or welch.",
+            'method = "multitaper"',
+            "nw = 4.0",
+            "",
+            "[coherence]",
+            "# Free-air gravity (output) against depth (input); the density contrast of an",
+            "# uncompensated load is fitted to the admittance.",
+            'input = "depth_m"',
+            'output = "gravity_mgal"',
+            'method = "welch"',
+            'block = "40km"',
             "",
         ]
     )
