@@ -14,11 +14,50 @@ spacing (minimum, median, 95th percentile, maximum), the Nyquist wavelength (2 x
 and 2 x maximum as the worst case) and, with --shortest-wavelength, every stretch whose spacing
 is above half of it (aliasing risk).
 
+With --field, the audit also draws up an aliasing budget for that field: every segment is split
+into stretches of homogeneous spacing; the spectrum's fall-off (a power law, or with
+--potential-field an exponential, plus any white noise floor) is fitted on the segment's
+best-sampled stretches; and every stretch gets the aliased power at the shortest wavelength as
+a fraction of the true power there (with a low-high range from the fit's uncertainty), the
+aliased share of its variance, and the largest spacing that keeps the aliased power under
+--alias-tolerance. See docs/aliasing-budget.md.
+
 This audit is about spectral aliasing only; it does not judge a survey's fitness for navigation
 or charting, which is decided under the applicable hydrographic survey standards by a qualified
 surveyor."""
 
-OUTPUTS = ("segments.csv", "risky_stretches.csv", "breaks.csv", "stations.csv", "spacing.json")
+OUTPUTS = (
+    "segments.csv",
+    "risky_stretches.csv",
+    "stretches.csv",
+    "breaks.csv",
+    "stations.csv",
+    "spacing.json",
+)
+#: Columns of the budget's stretches shown in the text output.
+SHOWN_STRETCH_COLUMNS = (
+    "line",
+    "segment",
+    "stretch",
+    "start_km",
+    "end_km",
+    "spacing_km",
+    "alias_contamination",
+    "aliased_variance_fraction",
+    "recommended_spacing_km",
+    "exceeds_recommendation",
+)
+
+
+def fraction(text: str) -> float:
+    """argparse type for a fraction in (0, 1), e.g. 0.01."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"cannot read {text!r} as a fraction; write e.g. 0.01") from None
+    if not 0.0 < value < 1.0:
+        raise argparse.ArgumentTypeError(f"{text!r} must be a fraction between 0 and 1, e.g. 0.01 for 1 %")
+    return value
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -36,6 +75,28 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="LENGTH",
         help="longest wavelength asked about; flags segments shorter than two cycles of it",
     )
+    budget = parser.add_argument_group("aliasing budget (with --field)")
+    budget.add_argument(
+        "--alias-tolerance",
+        type=fraction,
+        default=0.01,
+        metavar="FRACTION",
+        help="largest acceptable aliased power at the shortest wavelength, as a fraction of the "
+        "true power there (default 0.01)",
+    )
+    budget.add_argument(
+        "--potential-field",
+        action="store_true",
+        help="the field is a potential field (gravity, magnetics): fit an exponential fall-off "
+        "exp(-4 pi h k) instead of a power law",
+    )
+    budget.add_argument(
+        "--fit-band",
+        nargs=2,
+        type=length("--fit-band"),
+        metavar=("LONGEST", "SHORTEST"),
+        help="wavelengths bounding the fall-off fit, e.g. 20km 1km (default: chosen automatically)",
+    )
     add_output_arguments(parser)
 
 
@@ -52,9 +113,13 @@ def run(args: argparse.Namespace) -> int:
         loaded.segments,
         shortest_wavelength=args.shortest_wavelength,
         longest_wavelength=args.longest_wavelength,
+        field=args.field,
+        model="exponential" if args.potential_field else "power-law",
+        tolerance=args.alias_tolerance,
+        band=tuple(args.fit_band) if args.fit_band else None,
     )
     accounting = loaded.survey.accounting
-    warnings = loaded.warnings + audit.warnings
+    warnings = loaded.warnings + _model_hint(args) + audit.warnings
     document = {
         "rows": accounting.to_json(),
         **audit.to_json(),
@@ -62,8 +127,10 @@ def run(args: argparse.Namespace) -> int:
         "warnings": list(dict.fromkeys(warnings)),
     }
     if folder is not None:
-        folder.csv("segments.csv", audit.segments)
+        folder.csv("segments.csv", audit.segments_table())
         folder.csv("risky_stretches.csv", audit.risky_stretches)
+        if audit.budget is not None:
+            folder.csv("stretches.csv", audit.budget.stretches)
         folder.csv("breaks.csv", loaded.segments.breaks)
         folder.csv("stations.csv", loaded.survey.stations)
         folder.json("spacing.json", document)
@@ -80,4 +147,37 @@ def run(args: argparse.Namespace) -> int:
                 f"(half of the shortest wavelength):"
             )
             print(text_table(audit.risky_stretches))
+        if audit.budget is not None:
+            _print_budget(audit.budget)
     return report_warnings(args, warnings)
+
+
+def _model_hint(args: argparse.Namespace) -> tuple[str, ...]:
+    """A warning when a field named like gravity or magnetics is budgeted as a power law."""
+    from ..columns import field_kind
+
+    kind = field_kind(args.field) if args.field else None
+    if kind is not None and kind.kind in ("gravity", "magnetic") and not args.potential_field:
+        return (
+            f"field {args.field} looks like a {kind.kind} field; --potential-field fits the "
+            "exponential fall-off of potential fields",
+        )
+    return ()
+
+
+def _print_budget(budget) -> None:
+    from ..tables import text_table
+
+    print()
+    print(str(budget))
+    for (line, number), falloff in budget.falloffs.items():
+        print(f"  {line}/{number}: {falloff if falloff is not None else 'no fall-off fitted'}")
+    print()
+    if budget.shortest_wavelength:
+        print(
+            f"stretches of homogeneous spacing; aliased power at {budget.shortest_wavelength / 1e3:.4g} km "
+            f"as a fraction of the true power, spacing for at most {100 * budget.tolerance:g} %:"
+        )
+    else:
+        print("stretches of homogeneous spacing (give --shortest-wavelength for the aliased power there):")
+    print(text_table(budget.stretches[list(SHOWN_STRETCH_COLUMNS)], digits=4))
