@@ -912,7 +912,9 @@ def readme_text(survey: dict) -> str:
         "",
         _wrap(
             "used counts distinct stations: the duplicate row is merged into the row before ",
-            "it. Stations per line: ",
+            "it. These counts hold when every field is analysed (as the report does); a ",
+            "command that does not analyse gravity_mgal keeps the row with the non-numeric ",
+            "gravity value as a station whose gravity is missing. Stations per line: ",
             ", ".join(f"{name} {line['distance'].size}" for name, line in lines.items()),
             ".",
         ),
