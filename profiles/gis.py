@@ -1,4 +1,5 @@
-"""GIS output: one GeoPackage (EPSG:4326) with the stations, segments, windows and warnings.
+"""GIS output: one GeoPackage (EPSG:4326) with the stations, segments, windows, warnings and
+infill stretches.
 
 Layers of ``profiles.gpkg``:
 
@@ -10,10 +11,16 @@ Layers of ``profiles.gpkg``:
     :func:`profiles.spacing.audit_spacing`.
 ``windows``
     one line per window along its extent on the track, with every window attribute;
-    ``reasons`` is comma-separated text.
+    ``reasons`` is comma-separated text. With an aliasing budget drawn up for a target
+    wavelength, also the budget's columns (:data:`profiles.spacing.WINDOW_BUDGET_COLUMNS`).
 ``warnings``
     one point per aliasing reason of every window at risk, at the window's centre, with the
     reason, a message and the window's extent.
+``infill``
+    only with such a budget: one line per stretch spaced more coarsely than the budget
+    recommends, through the segment's stations from the stretch's start to its end
+    (:mod:`profiles.infill`), with :data:`profiles.infill.INFILL_COLUMNS`. Written (empty)
+    even when no stretch is that coarse, so that the layer is always there to open.
 
 Antimeridian: line geometries are cut where a track crosses +-180 degrees, the way RFC 7946
 (GeoJSON, section 3.1.9) asks, so that every longitude stays within [-180, 180]: such a track
@@ -34,12 +41,13 @@ import numpy as np
 import pandas as pd
 
 from .geometry import Segments
-from .spacing import SpacingAudit
+from .infill import InfillStretches, infill_stretches, window_frame
+from .spacing import AliasBudget, SpacingAudit
 from .survey import Survey
 from .windows import WindowTable, track_paths
 
-#: Layers of the GeoPackage, in the order written.
-LAYERS = ("stations", "segments", "windows", "warnings")
+#: Layers of the GeoPackage, in the order written (``infill`` only with a budget for a target).
+LAYERS = ("stations", "segments", "windows", "warnings", "infill")
 #: CRS of every layer.
 CRS = "EPSG:4326"
 
@@ -98,15 +106,24 @@ def _unwrapped(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
     return np.column_stack([np.unwrap(np.asarray(lon, dtype=float), period=360.0), lat])
 
 
-def _frame(table: pd.DataFrame, geometry):
+def _frame(table: pd.DataFrame, geometry, *, geometry_type: str | None = None):
+    """A GeoDataFrame in :data:`CRS`; ``geometry_type`` is kept (in ``attrs``) for writing the
+    layer when it has no feature to tell the type from."""
     import geopandas
 
     table = table.copy()
     for column in table.columns:
         values = table[column]
-        if values.dtype == object and values.map(lambda v: v is None or isinstance(v, bool | np.bool_)).all():
+        if (
+            len(values)
+            and values.dtype == object
+            and values.map(lambda v: v is None or isinstance(v, bool | np.bool_)).all()
+        ):
             table[column] = values.astype("boolean")  # written as integers, empty where unknown
-    return geopandas.GeoDataFrame(table, geometry=geometry, crs=CRS)
+    frame = geopandas.GeoDataFrame(table, geometry=geometry, crs=CRS)
+    if geometry_type is not None:
+        frame.attrs["geometry_type"] = geometry_type
+    return frame
 
 
 def station_layer(survey: Survey):
@@ -128,9 +145,11 @@ def segment_layer(segments: Segments, audit: SpacingAudit):
     return _frame(audit.segments.reset_index(drop=True), _lines(paths))
 
 
-def window_layer(windows: WindowTable):
-    """One line per window along its extent, with every window attribute."""
-    frame = windows.to_frame()
+def window_layer(windows: WindowTable, budget: AliasBudget | None = None):
+    """One line per window along its extent, with every window attribute, and the budget's
+    columns when ``budget`` was drawn up for a target wavelength
+    (:func:`profiles.infill.window_frame`)."""
+    frame = window_frame(windows, budget)
     frame["reasons"] = [",".join(r) for r in frame["reasons"]]
     paths = track_paths(windows.tracks, windows.track, windows.start, windows.end)
     return _frame(frame, _lines(paths))
@@ -154,6 +173,26 @@ def warning_layer(windows: WindowTable):
     return _frame(table, points)
 
 
+def infill_layer(infill: InfillStretches):
+    """One line per infill stretch through its stations, with :data:`profiles.infill.INFILL_COLUMNS`."""
+    return _frame(infill.to_frame(), _lines(list(infill.paths)), geometry_type="LineString")
+
+
+def write_layers(path: str | Path, layers: dict) -> Path:
+    """Write GeoDataFrames into one GeoPackage at ``path``, one layer each, in order.
+
+    A layer without features is written with the geometry type its builder recorded, so that
+    it opens as a line (or point) layer rather than one of unknown type.
+    """
+    path = Path(path)
+    for name, frame in layers.items():
+        options = {}
+        if frame.empty and "geometry_type" in frame.attrs:
+            options["geometry_type"] = frame.attrs["geometry_type"]
+        frame.to_file(path, layer=name, driver="GPKG", engine="pyogrio", **options)
+    return path
+
+
 def write_geopackage(
     path: str | Path,
     *,
@@ -162,7 +201,12 @@ def write_geopackage(
     audit: SpacingAudit,
     windows: WindowTable,
 ) -> Path:
-    """Write the four layers of :data:`LAYERS` into one GeoPackage at ``path``.
+    """Write the layers of :data:`LAYERS` into one GeoPackage at ``path``.
+
+    With an aliasing budget for a target wavelength (``audit.budget``, from
+    :func:`profiles.spacing.audit_spacing` with a field and a shortest wavelength), the
+    ``windows`` layer carries the budget's columns and the ``infill`` layer is written;
+    otherwise there is no ``infill`` layer.
 
     ``path`` is written directly; callers that need an atomic write pass a temporary path
     (see :meth:`profiles.outputs.OutputFolder.with_writer`).
@@ -170,10 +214,10 @@ def write_geopackage(
     layers = {
         "stations": station_layer(survey),
         "segments": segment_layer(segments, audit),
-        "windows": window_layer(windows),
+        "windows": window_layer(windows, audit.budget),
         "warnings": warning_layer(windows),
     }
-    path = Path(path)
-    for name in LAYERS:
-        layers[name].to_file(path, layer=name, driver="GPKG", engine="pyogrio")
-    return path
+    infill = infill_stretches(audit.budget, segments)
+    if infill is not None:
+        layers["infill"] = infill_layer(infill)
+    return write_layers(path, layers)

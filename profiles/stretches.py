@@ -45,7 +45,7 @@ WINDOW_STEPS = 10
 #: Default ratio of median spacings that counts as a change.
 SPACING_FACTOR = 1.5
 #: Default fewest steps in a stretch (shorter ones are merged into a neighbour).
-MIN_STEPS = 10
+MIN_STEPS = 5
 #: Fewest steps on each side of a station for it to be a change point.
 MIN_WINDOW = 3
 

@@ -1,15 +1,20 @@
-"""The GeoPackage of stations, segments, windows and warnings.
+"""The GeoPackage of stations, segments, windows, warnings and infill stretches.
 
 Outside references named beside the checks:
 - geopandas / pyogrio (GDAL's GeoPackage driver) to read the file back: the OGC GeoPackage
   standard is what any GIS opens;
 - pyproj.CRS for EPSG:4326 and pyproj.Geod.geometry_length (Karney 2013) for line lengths;
-- RFC 7946 section 3.1.9 (antimeridian cutting) for lines that cross +-180 degrees.
+- RFC 7946 section 3.1.9 (antimeridian cutting) for lines that cross +-180 degrees;
+- the sampling theorem (Shannon 1949): at a spacing of half the target wavelength or more the
+  aliased power there is at least the true power, so a 3 km stretch must be infill at 4 km
+  (tests/infill_survey.py), and the construction of that survey (where its coarse stretch runs,
+  its stations placed with pyproj.Geod.fwd).
 """
 
 from __future__ import annotations
 
 import geopandas
+import infill_survey
 import numpy as np
 import pyogrio
 import pytest
@@ -18,9 +23,10 @@ from pyproj import CRS
 
 from profiles.geometry import build_segments
 from profiles.gis import LAYERS, split_at_antimeridian, write_geopackage
+from profiles.infill import INFILL_COLUMNS
 from profiles.outputs import OutputFolder
 from profiles.resample import resample
-from profiles.spacing import audit_spacing
+from profiles.spacing import WINDOW_BUDGET_COLUMNS, audit_spacing
 from profiles.survey import Survey
 from profiles.windows import along_track_windows
 
@@ -51,13 +57,15 @@ def written(tmp_path_factory):
     return path, segments, audit, windows
 
 
-def test_four_layers_in_epsg_4326(written):
+def test_four_layers_in_epsg_4326_without_a_budget(written):
     path = written[0]
     names = [name for name, _ in pyogrio.list_layers(path)]  # GDAL's GeoPackage driver
-    assert names == list(LAYERS)
-    for name in LAYERS:
+    assert names == [name for name in LAYERS if name != "infill"]
+    for name in names:
         frame = geopandas.read_file(path, layer=name)
         assert CRS.from_user_input(frame.crs) == CRS.from_epsg(4326)
+    windows = geopandas.read_file(path, layer="windows")
+    assert not set(WINDOW_BUDGET_COLUMNS) & set(windows.columns)  # no target budget, no columns
 
 
 def test_stations_keep_every_row_with_status_and_reason(written):
@@ -138,3 +146,72 @@ def test_layers_across_the_antimeridian(tmp_path):
     np.testing.assert_allclose(lengths, windows.end - windows.start, rtol=1e-4)
     crossing = [g for g in layer.geometry if len(g.geoms) == 2]
     assert crossing
+
+
+# --- the aliasing budget: window columns and the infill layer -------------------------------------
+
+
+@pytest.fixture(scope="module")
+def budgeted(tmp_path_factory):
+    segments, windows, audit = infill_survey.build()
+    path = tmp_path_factory.mktemp("gis") / "profiles.gpkg"
+    write_geopackage(path, survey=segments.survey, segments=segments, audit=audit, windows=windows)
+    return path, segments, windows, audit
+
+
+def test_infill_layer_holds_the_coarse_stretch_through_its_stations(budgeted):
+    path, segments, _, audit = budgeted
+    assert [name for name, _ in pyogrio.list_layers(path)] == list(LAYERS)  # GDAL's driver
+    layers = dict(pyogrio.list_layers(path))
+    assert layers["infill"] == "LineString"
+    infill = geopandas.read_file(path, layer="infill")
+    assert CRS.from_user_input(infill.crs) == CRS.from_epsg(4326)
+    assert list(infill.columns[:-1]) == list(INFILL_COLUMNS)
+    # Construction (tests/infill_survey.py): K1 is logged every 3 km from 50 to 95 km.
+    (row,) = infill.itertuples()
+    assert (row.line, row.segment) == ("K1", 1)
+    assert row.start_km == pytest.approx(infill_survey.COARSE_START_KM, abs=1e-6)
+    assert row.end_km == pytest.approx(infill_survey.COARSE_END_KM, abs=1e-6)
+    assert row.spacing_km == pytest.approx(infill_survey.COARSE_SPACING_KM, abs=1e-6)
+    assert row.n_stations == 16  # 15 steps of 3 km
+    # Shannon 1949: any spacing under the tolerance is finer than half the target (2 km).
+    assert row.recommended_spacing_km < infill_survey.TARGET_KM / 2 < row.spacing_km
+    assert row.recommendation_basis == "tolerance"
+    assert np.isinf(row.alias_contamination)  # 3 km > 4 km / 2: the target is not resolved there
+    assert "3 km" in row.message and "not resolved" in row.message
+    # The line runs through the stations of the stretch (placed with pyproj.Geod.fwd) ...
+    (segment,) = [s for s in segments if s.line == "K1"]
+    inside = (segment.distance >= 50e3 - 1.0) & (segment.distance <= 95e3 + 1.0)
+    np.testing.assert_allclose(np.array(row.geometry.coords), np.column_stack(
+        [segment.lon[inside], segment.lat[inside]]), atol=1e-9)
+    # ... and is 45 km long on the ellipsoid (pyproj.Geod.geometry_length, Karney 2013).
+    assert GEOD.geometry_length(row.geometry) == pytest.approx(45e3, rel=1e-6)
+    # The budget's own infill table is what the layer holds.
+    assert len(audit.budget.infill()) == 1
+
+
+def test_windows_layer_carries_the_budget_columns(budgeted):
+    path, _, windows, _ = budgeted
+    layer = geopandas.read_file(path, layer="windows")
+    assert set(WINDOW_BUDGET_COLUMNS) <= set(layer.columns)
+    assert len(layer) == len(windows)
+    exceeds = layer["exceeds_recommendation"].astype(bool).to_numpy()
+    recommended = layer["recommended_spacing_km"].to_numpy()
+    np.testing.assert_array_equal(exceeds, layer["local_spacing_km"].to_numpy() > recommended)
+    # The one window lying wholly in the 3 km stretch (construction) is coarser than recommended.
+    inside = (layer["line"] == "K1") & (layer["start_km"] >= 50.0 - 1e-6) & (layer["end_km"] <= 95.0 + 1e-6)
+    assert inside.sum() == 1 and exceeds[inside.to_numpy()].all()
+    assert exceeds.sum() == 1
+    assert np.isfinite(layer.loc[~inside, "alias_contamination"]).all()
+
+
+def test_infill_layer_is_written_empty_when_nothing_is_coarse(tmp_path):
+    segments, windows, audit = infill_survey.build(lines=["K2"])  # logged every 250 m throughout
+    path = write_geopackage(tmp_path / "p.gpkg", survey=segments.survey, segments=segments, audit=audit,
+                            windows=windows)
+    layers = dict(pyogrio.list_layers(path))
+    assert layers["infill"] == "LineString"
+    assert pyogrio.read_info(path, layer="infill")["features"] == 0
+    infill = geopandas.read_file(path, layer="infill")
+    assert set(INFILL_COLUMNS) <= set(infill.columns)
+    assert CRS.from_user_input(infill.crs) == CRS.from_epsg(4326)

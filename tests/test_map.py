@@ -4,7 +4,12 @@ Outside references named beside the checks:
 - matplotlib.image.imread (matplotlib's PNG decoder) for the rendered file;
 - pyproj.Transformer for the projected track coordinates the frame must hold;
 - the demo survey's true values (demo_data/README.md): the coarse stretch of L08 from 100 to
-  140 km, station steps of 5.5 to 5.9 km there, the fabric aliased to about 13.26 km.
+  140 km, station steps of 5.5 to 5.9 km there, the fabric aliased to about 13.26 km;
+- the sampling theorem (Shannon 1949): at a spacing of half the target wavelength or more the
+  aliased power there is at least the true power, so no recommendation on the tolerance basis
+  is that coarse; hence the 3 km stretch of tests/infill_survey.py is coarser than recommended
+  at a 4 km target;
+- the "over" operator of Porter and Duff (1984) for the colour of the translucent halo on white.
 """
 
 from __future__ import annotations
@@ -14,8 +19,11 @@ import json
 import warnings
 from pathlib import Path
 
+import infill_survey
+import matplotlib.colors
 import matplotlib.image
 import numpy as np
+import pandas as pd
 import pytest
 from conftest import walk
 from pyproj import Transformer
@@ -25,7 +33,9 @@ from profiles.errors import InputError
 from profiles.figures import style
 from profiles.figures.map import draw_map, map_crs_for, render, survey_centre
 from profiles.geometry import build_segments
+from profiles.infill import INFILL_COLUMNS, infill_stretches
 from profiles.resample import resample
+from profiles.spacing import WINDOW_BUDGET_COLUMNS
 from profiles.survey import Survey
 from profiles.windows import along_track_windows, track_paths
 
@@ -162,7 +172,102 @@ def test_survey_across_the_antimeridian_is_drawn_in_one_piece():
     assert any(p[:, 0].max() > 180.0 for p in paths)  # the data really cross
 
 
+# --- infill stretches on the map ----------------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def budgeted():
+    segments, windows, audit = infill_survey.build()
+    return windows, infill_stretches(audit.budget, segments)
+
+
+def test_infill_is_drawn_on_a_grey_halo_with_end_ticks(budgeted):
+    windows, infill = budgeted
+    assert len(infill) == 1
+    figure = draw_map(windows, field="depth_m", infill=infill)
+    axes = figure.axes[0]
+    (halo,) = [c for c in axes.collections if c.get_gid() == "infill-halo"]
+    (path,) = halo.get_segments()
+    assert len(path) == 16  # through the 16 stations of the 3 km stretch (construction)
+    ticks = [line for line in axes.lines if line.get_gid() == "infill-tick"]
+    assert len(ticks) == 2
+    # The halo lies under the track and its casing; the ticks over them.
+    track = next(c for c in axes.collections if c.get_gid() == "track")
+    assert halo.get_zorder() < track.get_zorder() < ticks[0].get_zorder()
+    labels = [t.get_text() for t in figure.legends[0].get_texts()]
+    assert "infill: spacing coarser than recommended" in labels
+    caption = " ".join(t.get_text() for t in figure.texts)
+    assert "alias tolerance 0.01" in caption and "at 4 km" in caption and "infill stretches" in caption
+
+
+def test_infill_halo_pixels_in_the_png(budgeted):
+    windows, infill = budgeted
+    with_halo = matplotlib.image.imread(io.BytesIO(render(draw_map(windows, field="depth_m", infill=infill),
+                                                          "png")), format="png")
+    without = matplotlib.image.imread(io.BytesIO(render(draw_map(windows, field="depth_m"), "png")),
+                                      format="png")
+    assert with_halo.shape == without.shape
+    # Porter and Duff's "over": the halo's grey at its opacity on white (tests/infill_survey.py).
+    assert infill_survey.halo_pixels(with_halo) - infill_survey.halo_pixels(without) > 1000
+    # In greyscale the halo still differs from the white ground and the graticule.
+    colour = np.array(matplotlib.colors.to_rgb(style.INFILL_COLOUR))
+    grey = style.INFILL_ALPHA * colour + 1.0 - style.INFILL_ALPHA
+    graticule = np.array(matplotlib.colors.to_rgb(style.GRATICULE_COLOUR))
+    assert abs(grey.mean() - graticule.mean()) > 0.05 and 1.0 - grey.mean() > 0.2
+
+
+def test_caption_states_the_tolerance_even_without_infill():
+    segments, windows, audit = infill_survey.build(lines=["K2"])
+    infill = infill_stretches(audit.budget, segments)
+    assert len(infill) == 0
+    figure = draw_map(windows, field="depth_m", infill=infill)
+    caption = " ".join(t.get_text() for t in figure.texts)
+    assert "alias tolerance 0.01" in caption and "no infill stretch" in caption
+    assert not [c for c in figure.axes[0].collections if c.get_gid() == "infill-halo"]
+    labels = [t.get_text() for t in figure.legends[0].get_texts()]
+    assert "infill: spacing coarser than recommended" not in labels
+
+
 # --- the command --------------------------------------------------------------------------------
+
+
+def test_map_command_budget_columns_and_infill_layer(capsys, tmp_path):
+    import pyogrio
+
+    survey = infill_survey.write(tmp_path / "coarse.csv")
+    out = tmp_path / "map"
+    status = main(["map", survey, "--field", "depth_m", "--window", "40km", "--step", "10km",
+                   "--shortest-wavelength", "4km", "--alias-tolerance", "0.05", "--json", "--out", str(out)])
+    stdout, _ = capsys.readouterr()
+    assert status == 0
+    document = json.loads(stdout)
+    assert document["budget"] == {"field": "depth_m", "model": "power-law", "alias_tolerance": 0.05,
+                                  "shortest_wavelength_km": 4.0}
+    assert all(set(WINDOW_BUDGET_COLUMNS) <= set(w) for w in document["windows"])
+    # Construction: K1 every 3 km from 50 to 95 km; Shannon: coarser than any recommendation at 4 km.
+    (stretch,) = document["infill"]
+    assert set(stretch) == set(INFILL_COLUMNS)
+    assert (stretch["line"], round(stretch["start_km"]), round(stretch["end_km"])) == ("K1", 50, 95)
+    assert stretch["recommended_spacing_km"] < 2.0 < stretch["spacing_km"]
+    assert stretch["alias_contamination"] is None  # unbounded (not resolved), null in JSON
+    assert any("more coarsely than recommended" in w for w in document["warnings"])
+    table = pd.read_csv(out / "windows.csv")
+    assert set(WINDOW_BUDGET_COLUMNS) <= set(table.columns)
+    coarse = table[table["exceeds_recommendation"].astype(str) == "True"]
+    assert len(coarse) == 1 and coarse["local_spacing_km"].iloc[0] == pytest.approx(3.0)
+    layers = dict(pyogrio.list_layers(out / "profiles.gpkg"))
+    assert layers["infill"] == "LineString"
+    image = matplotlib.image.imread(out / "map.png")
+    assert infill_survey.halo_pixels(image) > 1000
+    # Without a target there is no budget: no columns, no infill layer.
+    status = main(["map", survey, "--field", "depth_m", "--window", "40km", "--json", "--out",
+                   str(out), "--overwrite"])
+    document = json.loads(capsys.readouterr()[0])
+    assert status == 0 and document["budget"] is None and document["infill"] is None
+    assert not set(WINDOW_BUDGET_COLUMNS) & set(document["windows"][0])
+    assert "infill" not in dict(pyogrio.list_layers(out / "profiles.gpkg"))
+
+
 
 
 def test_map_command_on_the_demo_survey(capsys, tmp_path):
@@ -189,6 +294,14 @@ def test_map_command_on_the_demo_survey(capsys, tmp_path):
     inside = [w for w in windows if w["line"] == "L08" and w["start_km"] >= 99.0 and w["end_km"] <= 141.0]
     assert inside and all({"rolloff", "near-nyquist"} <= set(w["reasons"]) for w in inside)
     assert all(abs(1 / w["dominant_wavelength_km"] - 1 / 13.26) < 1 / 40.0 for w in inside)
+    # Its 5.7 km steps are more than half the 4 km target, so 4 km is not resolved there
+    # (Shannon: contamination unbounded, null in JSON). They are coarser than recommended: a
+    # recommendation is at most the larger of 2 km and half the wavelength where the signal meets
+    # the station noise, which is shorter than the 10 km fabric standing 20 times above the 10 m
+    # noise (200 m amplitude; demo README), so under 5 km.
+    assert document["budget"]["shortest_wavelength_km"] == 4.0
+    assert all(w["exceeds_recommendation"] and w["alias_contamination"] is None for w in inside)
+    assert all(set(WINDOW_BUDGET_COLUMNS) <= set(w) for w in windows)
     assert any("at aliasing risk" in w for w in document["warnings"])
     for name in ("map.png", "map.svg", "profiles.gpkg", "windows.csv"):
         assert (out / name).stat().st_size > 0
@@ -200,6 +313,7 @@ def test_map_command_on_the_demo_survey(capsys, tmp_path):
 
 def test_map_command_bad_input_gives_one_line(capsys, tmp_path):
     for argv in (["--window", "40"], ["--alpha", "2"], ["--near-nyquist-factor", "0.5"],
+                 ["--alias-tolerance", "1.5"],
                  ["--map-crs", "EPSG:4326", "--out", str(tmp_path / "x")]):
         try:
             status = main(["map", str(DEMO), "--field", "depth_m", *argv])

@@ -6,7 +6,9 @@ Outside references named beside the checks:
   written by the generator from its model, not by the code under test;
 - README.md, "Cautions": the cautions the report must carry word for word;
 - the PNG specification (W3C/ISO 15948): signature and IHDR chunk, for the embedded images;
-- pyogrio (GDAL) reading the GeoPackage back.
+- pyogrio (GDAL) reading the GeoPackage back;
+- the sampling theorem (Shannon 1949) and the construction of tests/infill_survey.py: its 3 km
+  stretch is more than half the 4 km target, so it must be an infill candidate.
 """
 
 from __future__ import annotations
@@ -19,6 +21,7 @@ import struct
 import sys
 from pathlib import Path
 
+import infill_survey
 import pytest
 
 from profiles.cli import main
@@ -218,7 +221,45 @@ def test_tables_and_geopackage_beside_the_report(demo, summary):
     for field in ("depth_m", "gravity_mgal", "magnetic_nt"):
         assert layers[f"segments_{field}"] == "LineString"
         assert f"windows_{field}" in layers and f"warnings_{field}" in layers
+        assert layers[f"infill_{field}"] == "LineString"  # every field has a target in survey.toml
     assert pyogrio.read_info(demo / "profiles.gpkg", layer="stations")["features"] == len(stations)
+    from profiles.spacing import WINDOW_BUDGET_COLUMNS
+
+    windows = pd.read_csv(demo / "windows.csv")
+    assert set(WINDOW_BUDGET_COLUMNS) <= set(windows.columns)
+    # demo README: L08's steps of 5.5-5.9 km from 100 to 140 km exceed half of the 4 km target
+    # of depth_m (Shannon) and half the wavelength where the depth signal meets its 10 m noise
+    # (shorter than the 10 km fabric of 200 m amplitude), the most any recommendation can be:
+    # the window inside that stretch is coarser than recommended.
+    inside = windows[(windows["field"] == "depth_m") & (windows["line"] == "L08")
+                     & (windows["start_km"] >= 99.0) & (windows["end_km"] <= 141.0)]
+    assert len(inside) and inside["exceeds_recommendation"].astype(str).eq("True").all()
+
+
+def test_infill_stretch_in_the_report_its_map_and_geopackage(tmp_path):
+    import matplotlib.image
+    import pyogrio
+
+    survey = infill_survey.write(tmp_path / "coarse.csv")
+    out = tmp_path / "out"
+    assert main(["report", survey, "--shortest-wavelength", "4km", "--out", str(out), "--quiet"]) == 0
+    page = Page((out / "report.html").read_text(encoding="utf-8"))
+    audit = page.text.split("Breaks (gaps and sharp turns)", 1)[0]
+    # Construction: K1 every 3 km from 50 to 95 km, coarser than any recommendation at 4 km.
+    assert "Infill candidates" in audit and "depth_m K1 1 50.000 95.000" in audit
+    assert "Windows spaced more coarsely than recommended" in audit
+    assert "coarser_than_recommended" in audit.replace("_ ", "_")
+    summary = json.loads((out / "summary.json").read_text())
+    (stretch,) = summary["fields"]["depth_m"]["infill"]
+    assert (stretch["line"], round(stretch["start_km"]), round(stretch["end_km"])) == ("K1", 50, 95)
+    assert any("Infill candidate: line K1 from 50.0 to 95.0 km" in s for s in summary["attention"])
+    layers = dict(pyogrio.list_layers(out / "profiles.gpkg"))
+    assert layers["infill_depth_m"] == "LineString"
+    assert pyogrio.read_info(out / "profiles.gpkg", layer="infill_depth_m")["features"] == 1
+    # The report's map draws the stretch on the halo (its colour, Porter-Duff "over" on white).
+    image = matplotlib.image.imread(out / "figures" / "map_depth_m.png")
+    assert infill_survey.halo_pixels(image) > 1000
+    assert "infill stretch(es) spaced more coarsely than recommended" in page.text
 
 
 def test_configuration_as_run_is_written_and_reads_back(demo):

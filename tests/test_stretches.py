@@ -70,9 +70,12 @@ def test_isolated_odd_steps_do_not_split():
 
 
 def test_short_burst_is_merged():
-    # six coarse steps are fewer than min_steps (10): merged into the neighbours
-    steps = np.concatenate([np.full(100, 250.0), np.full(6, 1000.0), np.full(100, 250.0)])
+    # four coarse steps are fewer than min_steps (5): merged into the neighbours
+    steps = np.concatenate([np.full(100, 250.0), np.full(4, 1000.0), np.full(100, 250.0)])
     assert len(homogeneous_stretches(distance_of(steps))) == 1
+    # seven coarse steps (the demo survey's L08 stretch) stand on their own
+    seven = np.concatenate([np.full(100, 250.0), np.full(7, 5700.0), np.full(100, 250.0)])
+    assert len(homogeneous_stretches(distance_of(seven))) == 3
     # with min_steps 3 and a window of 3 steps they stand on their own
     split = homogeneous_stretches(distance_of(steps), min_steps=3, window_steps=3)
     assert len(split) == 3 and split.spacing[1] == pytest.approx(1000.0)

@@ -21,8 +21,16 @@ Windows are flagged at aliasing risk, with their reasons:
   near-nyquist  the dominant wavelength is within --near-nyquist-factor of the local
                 Nyquist wavelength
 
+With --shortest-wavelength, the aliasing budget of the field is drawn up as by
+'profiles spacing --field' (docs/aliasing-budget.md): every window also gets the aliased power
+at the shortest wavelength and at its own dominant wavelength as a fraction of the true power
+there (with a low-high range), the aliased share of its variance and its segment's recommended
+spacing (the largest keeping the aliased power under --alias-tolerance); stretches spaced more
+coarsely than recommended are infill stretches, drawn on the map on a grey halo.
+
 With --out DIR: map.png and map.svg (tracks coloured by dominant wavelength), profiles.gpkg
-(layers stations, segments, windows, warnings; EPSG:4326) and windows.csv.
+(layers stations, segments, windows, warnings and, with --shortest-wavelength, infill;
+EPSG:4326) and windows.csv.
 
 This is an aliasing audit, not for navigation: a survey's fitness for charting is decided under
 the applicable hydrographic survey standards by a qualified surveyor."""
@@ -97,6 +105,21 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="flag 'near-nyquist' when the dominant wavelength is below FACTOR x the local Nyquist "
         "wavelength (default 1.25)",
     )
+    budget = parser.add_argument_group("aliasing budget (with --shortest-wavelength)")
+    budget.add_argument(
+        "--alias-tolerance",
+        type=_fraction("--alias-tolerance"),
+        default=0.01,
+        metavar="FRACTION",
+        help="largest acceptable aliased power at the shortest wavelength, as a fraction of the "
+        "true power there (default 0.01)",
+    )
+    budget.add_argument(
+        "--potential-field",
+        action="store_true",
+        help="the field is a potential field (gravity, magnetics): fit an exponential fall-off "
+        "exp(-4 pi h k) instead of a power law",
+    )
     drawing = parser.add_argument_group("map")
     drawing.add_argument(
         "--map-crs",
@@ -109,10 +132,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from ..infill import infill_stretches, window_frame
     from ..outputs import OutputFolder
     from ..resample import resample
-    from ..tables import text_table
+    from ..spacing import audit_spacing
+    from ..tables import records, text_table
     from ..windows import along_track_windows
+    from .spacing import _model_hint
 
     folder = (
         OutputFolder(args.out, OUTPUTS, inputs=args.survey, overwrite=args.overwrite) if args.out else None
@@ -132,23 +158,39 @@ def run(args: argparse.Namespace) -> int:
         rolloff_share=args.rolloff_share,
         near_nyquist_factor=args.near_nyquist_factor,
     )
+    # The budget needs a target wavelength: without one the audit runs without the field.
+    budgeted = args.shortest_wavelength is not None
+    audit = audit_spacing(
+        loaded.segments,
+        shortest_wavelength=args.shortest_wavelength,
+        field=args.field if budgeted else None,
+        model="exponential" if args.potential_field else "power-law",
+        tolerance=args.alias_tolerance,
+    )
+    budget = audit.budget
+    frame = window_frame(windows, budget)
+    infill = infill_stretches(budget, loaded.segments)
     warnings = loaded.warnings + windows.warnings
+    if budget is not None:
+        warnings += _model_hint(args) + budget.warnings
     document = {
         "field": args.field,
         "settings": windows.settings.to_json(),
+        "budget": budget.settings_json() if budget is not None else None,
         "rows": loaded.survey.accounting.to_json(),
-        "windows": windows.records(),
+        "windows": records(frame),
+        "infill": infill.records() if infill is not None else None,
         "warnings": list(dict.fromkeys(warnings)),
     }
     if folder is not None:
-        _write(folder, args, loaded, windows)
+        _write(folder, args, loaded, windows, frame, audit, infill)
     if args.json:
         print_json(document)
     else:
         print(str(loaded.survey.accounting))
         print(str(windows))
         print()
-        shown = windows.to_frame()[
+        shown = frame[
             ["line", "segment", "center_km", "dominant_wavelength_km", "variance_fraction",
              "fisher_p_value", "red_noise_significant", "local_spacing_km", "local_nyquist_km", "reasons"]
         ]
@@ -157,21 +199,21 @@ def run(args: argparse.Namespace) -> int:
             reasons=[",".join(r) or "-" for r in shown["reasons"]],
         )
         print(text_table(shown))
+        if infill is not None:
+            print()
+            print(str(infill))
     return report_warnings(args, warnings)
 
 
-def _write(folder, args, loaded, windows) -> None:
+def _write(folder, args, loaded, windows, frame, audit, infill) -> None:
     from ..figures.map import draw_map, render
     from ..gis import write_geopackage
-    from ..spacing import audit_spacing
 
-    figure = draw_map(windows, field=args.field, map_crs=args.map_crs, title=args.title)
-    frame = windows.to_frame()
-    frame["reasons"] = [",".join(r) for r in frame["reasons"]]
+    figure = draw_map(windows, field=args.field, map_crs=args.map_crs, title=args.title, infill=infill)
+    frame = frame.assign(reasons=[",".join(r) for r in frame["reasons"]])
     folder.csv("windows.csv", frame)
     folder.bytes("map.png", render(figure, "png"))
     folder.bytes("map.svg", render(figure, "svg"))
-    audit = audit_spacing(loaded.segments, shortest_wavelength=args.shortest_wavelength)
     folder.with_writer(
         "profiles.gpkg",
         lambda path: write_geopackage(

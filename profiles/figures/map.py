@@ -15,6 +15,10 @@ computed here.
   pieces at aliasing risk get a black-and-white dashed casing, and open symbols along them
   name the reasons (triangle: spacing; square: rolloff; diamond: near-nyquist). Segments too
   short for a window are thin grey lines; nothing is drawn across gaps.
+- Infill stretches (``infill``, :class:`profiles.infill.InfillStretches`: spacing coarser than
+  the aliasing budget recommends) lie on a wide translucent grey halo under the track, through
+  their own stations, with a dark tick across the track at each end; the caption states the
+  alias tolerance and the target wavelength.
 - Frame: graticule of meridians and parallels (transformed into the map CRS, labelled where
   they meet the frame), scale bar in km, north arrow (true north at its foot), line names at
   line starts, a colour bar, a legend, a title and a caption with the settings.
@@ -23,12 +27,16 @@ computed here.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ..errors import InputError
 from ..windows import WindowTable, track_paths
 from . import style
+
+if TYPE_CHECKING:
+    from ..infill import InfillStretches
 
 NICE_STEPS_DEG = (30.0, 20.0, 10.0, 5.0, 2.0, 1.0, 0.5, 0.25, 0.2, 0.1, 0.05, 0.02, 0.01, 0.005, 0.002, 0.001)
 
@@ -104,7 +112,14 @@ def _degrees(value: float, kind: str, decimals: int) -> str:
 # --- drawing -------------------------------------------------------------------------------------
 
 
-def draw_map(windows: WindowTable, *, field: str, map_crs: str | None = None, title: str | None = None):
+def draw_map(
+    windows: WindowTable,
+    *,
+    field: str,
+    map_crs: str | None = None,
+    title: str | None = None,
+    infill: InfillStretches | None = None,
+):
     """Draw the wavelength map of a window table; return the matplotlib Figure.
 
     Parameters
@@ -117,6 +132,10 @@ def draw_map(windows: WindowTable, *, field: str, map_crs: str | None = None, ti
         Projected CRS in metres; a transverse Mercator centred on the survey by default.
     title : str, optional
         Title; "Dominant wavelength along track: FIELD" by default.
+    infill : InfillStretches, optional
+        From :func:`profiles.infill.infill_stretches`: stretches spaced more coarsely than the
+        aliasing budget recommends, drawn on a grey halo with end ticks; the caption then
+        states the budget's alias tolerance and target wavelength.
     """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.collections import LineCollection
@@ -152,6 +171,8 @@ def draw_map(windows: WindowTable, *, field: str, map_crs: str | None = None, ti
                            gid="no-window"),
             autolim=True,
         )
+    if infill is not None and len(infill):
+        _infill(axes, [project(path) for path in infill.paths])
     collection = None
     if len(windows):
         low, high = windows.piece_bounds()
@@ -190,8 +211,8 @@ def draw_map(windows: WindowTable, *, field: str, map_crs: str | None = None, ti
     _scale_bar(axes, extent)
     _north_arrow(axes, crs, extent, forward)
     _colour_bar(figure, collection)
-    _legend(figure, windows)
-    _title_and_caption(figure, windows, field=field, title=title, crs=crs)
+    _legend(figure, windows, infill)
+    _title_and_caption(figure, windows, field=field, title=title, crs=crs, infill=infill)
     return figure
 
 
@@ -240,6 +261,30 @@ def _reason_markers(axes, windows: WindowTable, pieces: list[np.ndarray]) -> Non
         axes.plot(points[:, 0], points[:, 1], linestyle="none", marker=marker, markersize=style.MARKER_SIZE,
                   markerfacecolor="none", markeredgecolor="black", markeredgewidth=style.MARKER_EDGE,
                   path_effects=halo, zorder=6)
+
+
+def _infill(axes, paths: list[np.ndarray]) -> None:
+    """A translucent grey halo under each infill stretch, and a dark tick across the track at
+    each of its ends (a marker turned to the track's direction there)."""
+    from matplotlib.collections import LineCollection
+    from matplotlib.markers import MarkerStyle
+    from matplotlib.transforms import Affine2D
+
+    paths = [path for path in paths if path.shape[0] >= 2]
+    if not paths:
+        return
+    axes.add_collection(LineCollection(paths, colors=style.INFILL_COLOUR, alpha=style.INFILL_ALPHA,
+                                       linewidths=style.INFILL_WIDTH, capstyle="butt", joinstyle="round",
+                                       zorder=1.5, gid="infill-halo"))
+    for path in paths:
+        for end, inward in ((path[0], path[1]), (path[-1], path[-2])):
+            dx, dy = inward - end
+            angle = math.degrees(math.atan2(dy, dx)) if (dx or dy) else 0.0
+            # "|" is upright: turned by the track's angle it stands across the track.
+            tick = MarkerStyle("|", transform=Affine2D().rotate_deg(angle))
+            axes.plot([end[0]], [end[1]], linestyle="none", marker=tick, markersize=style.INFILL_TICK_SIZE,
+                      markeredgecolor=style.INFILL_TICK_COLOUR, markeredgewidth=style.INFILL_TICK_WIDTH,
+                      zorder=5, gid="infill-tick")
 
 
 def _along(path: np.ndarray, fraction: float) -> np.ndarray:
@@ -406,7 +451,7 @@ def _log_ticks(vmin: float, vmax: float) -> list[float]:
     return values
 
 
-def _legend(figure, windows: WindowTable) -> None:
+def _legend(figure, windows: WindowTable, infill=None) -> None:
     from matplotlib import colormaps
     from matplotlib.legend_handler import HandlerTuple
     from matplotlib.lines import Line2D
@@ -431,6 +476,13 @@ def _legend(figure, windows: WindowTable) -> None:
     if len(windows.tracks) > len(np.unique(windows.track)):
         handles.append(Line2D([], [], color=style.BARE_COLOUR, linewidth=style.BARE_WIDTH))
         labels.append("segment shorter than the window")
+    if infill is not None and len(infill):
+        handles.append((
+            Line2D([], [], color=style.INFILL_COLOUR, alpha=style.INFILL_ALPHA, linewidth=style.INFILL_WIDTH,
+                   solid_capstyle="butt"),
+            Line2D([], [], color=colour, linewidth=style.TRACK_WIDTH, solid_capstyle="butt"),
+        ))
+        labels.append("infill: spacing coarser than recommended")
     meanings = {
         "spacing": "spacing: station step above half the target wavelength",
         "rolloff": "rolloff: variance piled up below the local Nyquist",
@@ -448,7 +500,8 @@ def _legend(figure, windows: WindowTable) -> None:
                   fontsize=style.LABEL_SIZE, handlelength=3.0, handler_map={tuple: HandlerTuple(ndivide=1)})
 
 
-def _title_and_caption(figure, windows: WindowTable, *, field: str, title: str | None, crs) -> None:
+def _title_and_caption(figure, windows: WindowTable, *, field: str, title: str | None, crs,
+                       infill=None) -> None:
     settings = windows.settings
     figure.text(0.08, 0.955, title or f"Dominant wavelength along track: {field}", fontsize=style.TITLE_SIZE,
                 fontweight="bold", ha="left", va="bottom")
@@ -457,12 +510,26 @@ def _title_and_caption(figure, windows: WindowTable, *, field: str, title: str |
         if settings.shortest_wavelength is None
         else f"{settings.shortest_wavelength / 1e3:g} km"
     )
-    lines = (
+    lines = [
         f"Field {field}; window {settings.window / 1e3:g} km, step {settings.step / 1e3:g} km; target "
         f"shortest wavelength {target}; significance level {settings.alpha:g}.",
         f"Peaks tested against an AR(1) red-noise background. Map: {_describe(crs)}; scale true "
         f"near the centre.",
-        "Aliasing audit, not for navigation.",
-    )
+    ]
+    if infill is not None:
+        lines.append(_infill_caption(infill))
+    lines.append("Aliasing audit, not for navigation.")
+    top = 0.011 + 0.018 * (len(lines) - 1)
     for row, text in enumerate(lines):
-        figure.text(0.08, 0.047 - 0.018 * row, text, fontsize=style.CAPTION_SIZE, ha="left", va="bottom")
+        figure.text(0.08, top - 0.018 * row, text, fontsize=style.CAPTION_SIZE, ha="left", va="bottom")
+
+
+def _infill_caption(infill) -> str:
+    """The caption's sentence on the aliasing budget: tolerance, target, what the halo marks."""
+    head = (
+        f"Aliasing budget ({infill.model} fall-off): alias tolerance {infill.tolerance:g} of the true "
+        f"power at {infill.shortest_wavelength / 1e3:g} km; "
+    )
+    if not len(infill):
+        return head + "no infill stretch."
+    return head + f"infill stretches (grey halo, end ticks): {len(infill)}."

@@ -3,7 +3,9 @@
 The colour map is viridis, perceptually uniform and readable by the common forms of colour
 blindness (van der Walt and Smith 2015, the matplotlib colour-map design notes); its lightness
 rises monotonically, so it also reads in greyscale. Everything that carries a warning is drawn
-in black and white (casings, open symbols), never by hue alone.
+in black and white (casings, open symbols), never by hue alone; infill stretches get a wide
+translucent neutral-grey halo under the track, closed by dark ticks across the track at their
+ends, so that they read by lightness and shape, not by hue.
 """
 
 from __future__ import annotations
@@ -24,6 +26,16 @@ CASING_DASHES = (0, (1.0, 1.0))
 #: Segments that hold no window.
 BARE_COLOUR = "#9a9a9a"
 BARE_WIDTH = 1.2
+#: Infill stretches (spacing coarser than the aliasing budget recommends): a neutral grey halo,
+#: wider than the risk casing so that it shows around it, at this opacity (on white it blends
+#: to about 71 % lightness, darker than the graticule and lighter than the bare segments), and
+#: a dark tick across the track at each end of the stretch (size in points).
+INFILL_COLOUR = "#5a5a5a"
+INFILL_ALPHA = 0.45
+INFILL_WIDTH = 15.0
+INFILL_TICK_COLOUR = "#202020"
+INFILL_TICK_SIZE = 20.0
+INFILL_TICK_WIDTH = 1.6
 #: Graticule.
 GRATICULE_COLOUR = "#c8c8c8"
 GRATICULE_WIDTH = 0.6

@@ -159,7 +159,7 @@ def _tables(results) -> dict[str, pd.DataFrame]:
             for f in results.fields for r in f.spectra if r.density is not None
         ),
         "windows": stack(
-            tagged(f.windows.to_frame().assign(reasons=lambda t: t["reasons"].map(" ".join)), f.name)
+            tagged(f.window_frame().assign(reasons=lambda t: t["reasons"].map(" ".join)), f.name)
             for f in results.fields if f.windows is not None
         ),
         "lines": stack(tagged(f.line_table(), f.name) for f in results.fields),
@@ -182,25 +182,30 @@ def _tables(results) -> dict[str, pd.DataFrame]:
 
 def geopackage_layers(results) -> dict:
     """Layers of ``profiles.gpkg``: ``stations`` (every input row), then per field
-    ``segments_FIELD`` (spacing audit), ``windows_FIELD`` and ``warnings_FIELD`` (one point per
-    aliasing reason of a window at risk), built by :mod:`profiles.gis`."""
-    from ..gis import segment_layer, station_layer, warning_layer, window_layer
+    ``segments_FIELD`` (spacing audit), ``windows_FIELD`` (with the aliasing budget's columns
+    where the field has a shortest wavelength), ``warnings_FIELD`` (one point per aliasing
+    reason of a window at risk) and, where the field has a shortest wavelength, ``infill_FIELD``
+    (stretches spaced more coarsely than the budget recommends, empty when there is none),
+    built by :mod:`profiles.gis`."""
+    from ..gis import infill_layer, segment_layer, station_layer, warning_layer, window_layer
 
     layers = {"stations": station_layer(results.survey)}
     for field in results.fields:
         stem = safe_name(field.name)
         layers[f"segments_{stem}"] = segment_layer(results.segments, field.audit)
         if field.windows is not None:
-            layers[f"windows_{stem}"] = window_layer(field.windows)
+            layers[f"windows_{stem}"] = window_layer(field.windows, field.audit.budget)
             layers[f"warnings_{stem}"] = warning_layer(field.windows)
+        if field.infill is not None:
+            layers[f"infill_{stem}"] = infill_layer(field.infill)
     return layers
 
 
 def write_geopackage(path, results):
     """Write :func:`geopackage_layers` into one GeoPackage at ``path`` (EPSG:4326)."""
-    for name, layer in geopackage_layers(results).items():
-        layer.to_file(path, layer=name, driver="GPKG", engine="pyogrio")
-    return path
+    from ..gis import write_layers
+
+    return write_layers(path, geopackage_layers(results))
 
 
 def write_report(results, folder, *, command: str | None = None, quiet: bool = True) -> dict:

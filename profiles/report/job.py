@@ -7,7 +7,8 @@ by step; it computes nothing itself. The steps, and the library calls they make:
    :func:`profiles.geometry.build_segments`;
 2. per field, the spacing audit and its aliasing budget: :func:`profiles.spacing.audit_spacing`
    (with the field, and the fall-off form :func:`profiles.falloff.model_for_kind` gives its
-   kind);
+   kind), and the budget's infill stretches with their tracks:
+   :func:`profiles.infill.infill_stretches`;
 3. per field, the spectra of every segment, the sliding windows, the line table and the
    fabric fit, with one frozen set of options: :func:`profiles.compare.compare_survey` (over
    :func:`profiles.analysis.analyse_segment`, :func:`profiles.windows.along_track_windows`,
@@ -126,12 +127,16 @@ class FieldResults:
         spectra, the windows and the fabric fit.
     source_depths : tuple of SourceDepth
         Empty unless the configuration asks for it.
+    infill : InfillStretches or None
+        Stretches spaced more coarsely than the aliasing budget recommends, with their tracks
+        (:func:`profiles.infill.infill_stretches`); None without a shortest wavelength.
     """
 
     config: FieldConfig
     audit: object
     comparison: object
     source_depths: tuple[SourceDepth, ...] = ()
+    infill: object | None = None
 
     @property
     def name(self) -> str:
@@ -157,6 +162,14 @@ class FieldResults:
     def fit(self):
         """The FabricFit, or None."""
         return self.comparison.fabric
+
+    def window_frame(self):
+        """The windows table with the aliasing budget's columns where the budget has a target
+        (:func:`profiles.infill.window_frame`), or None when no window could be made."""
+        from ..infill import window_frame
+
+        windows = self.windows
+        return None if windows is None else window_frame(windows, self.audit.budget)
 
     def line_table(self):
         """The line table with ``in_fit``, ``excluded_because``, ``predicted_wavelength_km``
@@ -352,6 +365,7 @@ def _field(config, item, segments, notices) -> FieldResults:
     """The audit, comparison (spectra, windows, fabric) and source depth of one field."""
     from ..compare import compare_survey
     from ..falloff import model_for_kind
+    from ..infill import infill_stretches
     from ..spacing import audit_spacing
 
     name = item.name
@@ -385,7 +399,8 @@ def _field(config, item, segments, notices) -> FieldResults:
     for message in comparison.warnings:
         about = risky if "aliasing risk" in message else ""
         notices.append(Notice("comparison", name, message, about))
-    result = FieldResults(config=item, audit=audit, comparison=comparison)
+    result = FieldResults(config=item, audit=audit, comparison=comparison,
+                          infill=infill_stretches(audit.budget, segments))
     if item.source_depth:
         result = replace(result, source_depths=_source_depths(result.spectra, notices, name))
     return result

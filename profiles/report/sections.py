@@ -212,12 +212,76 @@ def audit_section(results, figures: FigureSet) -> Section:
         else:
             body.append(paragraph("None: the aliasing budget finds no stretch spaced more coarsely "
                                   "than it recommends."))
-        body.append(paragraph("alias_budget.csv lists every stretch of every field."))
+        body.append(paragraph("alias_budget.csv lists every stretch of every field; profiles.gpkg "
+                              "holds the infill candidates as the line layers infill_FIELD, and the "
+                              "maps draw them on a grey halo with ticks at their ends."))
+        body.extend(_window_budget(budgets))
     body.append("<h3>Breaks (gaps and sharp turns)</h3>")
     breaks = results.segments.breaks
     body.append(data_table(breaks.rename(columns={"size": "size (km or deg)"}), digits=2)
                 if len(breaks) else paragraph("None."))
     return Section("audit", "Spacing audit", "\n".join(body))
+
+
+def _share(value) -> str:
+    """A fraction for a table: three significant figures, ∞ where unbounded, – where unknown."""
+    value = float(value)
+    if np.isnan(value):
+        return "–"
+    return "∞" if np.isinf(value) else f"{value:.3g}"
+
+
+def _window_budget(budgets) -> list[str]:
+    """The aliasing budget of the along-track windows: a summary per field and the windows
+    spaced more coarsely than recommended (HTML parts)."""
+    rows, coarse = [], []
+    for field in budgets:
+        frame = field.window_frame()
+        if frame is None or "alias_contamination" not in frame:
+            continue
+        value = frame["alias_contamination"].to_numpy(dtype=float)
+        budgeted = ~np.isnan(value)
+        exceeds = frame["exceeds_recommendation"].eq(True).to_numpy()
+        dominant = frame["dominant_alias_contamination"].to_numpy(dtype=float)[budgeted]
+        fraction = frame["aliased_variance_fraction"].to_numpy(dtype=float)[budgeted]
+        rows.append({
+            "field": field.name,
+            "windows": len(frame),
+            "budgeted": int(budgeted.sum()),
+            "alias_contamination_median": _share(np.median(value[budgeted]) if budgeted.any() else np.nan),
+            "alias_contamination_max": _share(value[budgeted].max() if budgeted.any() else np.nan),
+            "over_tolerance": int((value[budgeted] > field.audit.budget.tolerance).sum()),
+            "coarser_than_recommended": int(exceeds.sum()),
+            "dominant_alias_contamination_max": _share(dominant.max() if dominant.size else np.nan),
+            "aliased_variance_fraction_median": _share(np.median(fraction) if fraction.size else np.nan),
+        })
+        if exceeds.any():
+            chosen = frame[exceeds].assign(field=field.name)
+            chosen = chosen.assign(**{name: [_share(v) for v in chosen[name]] for name in (
+                "alias_contamination", "dominant_alias_contamination", "aliased_variance_fraction")})
+            coarse.append(chosen[["field", "line", "segment", "start_km", "end_km", "local_spacing_km",
+                                  "recommended_spacing_km", "alias_contamination", "dominant_wavelength_km",
+                                  "dominant_alias_contamination", "aliased_variance_fraction"]])
+    if not rows:
+        return []
+    tolerances = ", ".join(f"{f.name} {f.audit.budget.tolerance:g}" for f in budgets)
+    out = [
+        "<h4>Windows</h4>",
+        paragraph("Every along-track window budgeted at its local median station spacing with its "
+                  "segment's fall-off: the aliased power over the true power at the shortest "
+                  "wavelength (alias_contamination) and at the window's own dominant wavelength "
+                  "(dominant_alias_contamination), and the aliased share of its variance. "
+                  f"over_tolerance counts windows above the alias tolerance ({tolerances}); "
+                  "coarser_than_recommended those whose local spacing exceeds their segment's "
+                  "recommended spacing. ∞: the wavelength is not resolved at that spacing. "
+                  "windows.csv and the windows_FIELD layers give every window's values with their "
+                  "low-high ranges."),
+        data_table(pd.DataFrame(rows)),
+    ]
+    if coarse:
+        out.append(data_table(pd.concat(coarse, ignore_index=True), digits=3, max_rows=40,
+                              caption="Windows spaced more coarsely than recommended"))
+    return out
 
 
 def spectra_section(results, figures: FigureSet) -> Section:
@@ -286,11 +350,17 @@ def map_section(results, figures: FigureSet) -> Section | None:
     body.append(data_table(pd.DataFrame(rows), digits=2))
     for field in shown:
         body.append(f"<h3>{esc(field.name)}</h3>")
-        data = render(draw_map(field.windows, field=field.name), "png")
+        data = render(draw_map(field.windows, field=field.name, infill=field.infill), "png")
+        caption = (f"Dominant wavelength of {field.name} in each window along the tracks; faded where "
+                   "no peak stands above red noise, cased where a window is at aliasing risk")
+        if field.infill is not None and len(field.infill):
+            caption += (f"; on a grey halo with end ticks, the {len(field.infill)} infill stretch(es) "
+                        f"spaced more coarsely than recommended for at most "
+                        f"{100 * field.infill.tolerance:g} % aliased power at "
+                        f"{field.infill.shortest_wavelength / 1e3:g} km")
         body.append(figures.add_png(
             f"map_{safe_name(field.name)}", data, alt=f"wavelength map of {field.name}",
-            caption=f"Dominant wavelength of {field.name} in each window along the tracks; faded where "
-                    "no peak stands above red noise, cased where a window is at aliasing risk."))
+            caption=caption + "."))
         frame = field.windows.to_frame()
         risky = frame[frame["aliasing_risk"].to_numpy(dtype=bool)]
         body.append(f"<h4>{esc(field.name)}: windows at aliasing risk</h4>")
@@ -299,8 +369,10 @@ def map_section(results, figures: FigureSet) -> Section | None:
                                  "local_spacing_max_km", "local_nyquist_km", "reasons"]],
                           digits={"lon": 4, "lat": 4}, max_rows=40)
                     if len(risky) else paragraph("None."))
-    body.append(paragraph("windows.csv holds every window of every field; profiles.gpkg holds the "
-                          "stations, segments, windows and warnings as GIS layers."))
+    body.append(paragraph("windows.csv holds every window of every field, with the aliasing "
+                          "budget's columns where the field has a shortest wavelength; profiles.gpkg "
+                          "holds the stations, segments, windows, warnings and infill stretches as "
+                          "GIS layers."))
     return Section("map", "Wavelength map and windows", "\n".join(body))
 
 
