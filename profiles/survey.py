@@ -11,6 +11,8 @@ Every input row ends in exactly one of three states:
     the row cannot be used; the reason says why (missing coordinate, non-numeric value, ...).
 
 :class:`RowAccounting` counts them, and ``read == used + merged + dropped`` always holds.
+The reasons a row is dropped while reading are listed in :mod:`profiles.stations`; merging and
+the drops of segmentation in :mod:`profiles.geometry`; ``docs/input-handling.md`` has them all.
 """
 
 from __future__ import annotations
@@ -169,7 +171,7 @@ class Survey:
         Coordinates are checked as a reader would check them; rows that fail are dropped with
         their reason. Longitudes in [0, 360) are accepted and normalised.
         """
-        from .read import assemble_stations  # the reader owns validation
+        from .stations import assemble_stations  # the reader owns validation
 
         frame = {"line": np.asarray(line).astype(str), "lon": lon, "lat": lat}
         if time is not None:

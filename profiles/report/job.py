@@ -337,7 +337,8 @@ def run_survey(config: SurveyConfig, *, quiet: bool = True) -> SurveyResults:
                 )
             segments = segments.select(config.lines)
         if len(segments) == 0:
-            raise InputError("no segment with two or more stations in the survey")
+            names = ", ".join(str(p) for p in config.inputs)
+            raise InputError(f"{names}: no segment with two or more stations")
         steps.advance("segments")
 
         results = []

@@ -1,0 +1,517 @@
+"""From a table as read to stations: choosing the columns, validating every row, and the
+row statuses of :mod:`profiles.survey`.
+
+The checks on a row, in order; the first that fails names the reason it is dropped:
+
+1. a reason found while reading (``blank line``, ``repeated header``, ``wrong number of fields``);
+2. ``blank line`` (every cell empty);
+3. ``missing line id``;
+4. ``missing coordinate``, ``non-numeric coordinate``, ``non-finite coordinate``;
+5. ``coordinate outside the CRS area`` (projected coordinates that do not convert);
+6. ``coordinate out of range`` (latitude beyond +-90, longitude outside -180 .. 360);
+7. ``position (0, 0)`` (a fix at exactly 0, 0 is a missing fix, not a place);
+8. ``missing time``, ``unreadable time`` (when there is a time column);
+9. per requested field F: ``non-numeric value in F``, ``non-finite value in F``,
+   ``no-data value in F`` (a marker such as -99999, see :data:`profiles.columns.NO_DATA_VALUES`),
+   ``value beyond physical bounds in F`` (for fields whose kind the name tells, see
+   :func:`profiles.columns.field_kind`), ``missing value in F``.
+
+Fields that were not requested never drop a row: their unusable values become missing values,
+with a warning. Whole-table checks refuse coordinates that are clearly not degrees (projected
+values without ``--crs``), swapped latitude and longitude, and degrees given with a projected
+``--crs``. Stations of each line are put in time order when there is a time column.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .columns import (
+    FILL_MAGNITUDE,
+    NO_DATA_VALUES,
+    ColumnNames,
+    field_kind,
+    find_column,
+    listing,
+    normalise,
+)
+from .errors import InputError
+from .survey import BASE_COLUMNS, DROPPED, USED, Survey
+
+_MISSING_WORDS = ["nan", "na", "n/a", "null", "none", "-"]
+
+
+@dataclass
+class RawTable:
+    """A table as read from a file, before validation.
+
+    Attributes
+    ----------
+    table : pandas.DataFrame
+        Cells as text (text files) or as read (GIS layers, with ``__lon__``/``__lat__``).
+    rows : ndarray of int
+        File line (text) or feature number (GIS) of each row.
+    reasons : ndarray of str
+        ``""`` or a reason decided while reading ("blank line", "repeated header", "wrong
+        number of fields").
+    notes : list of str
+        Warnings from reading.
+    duplicates : dict of str to list of int
+        Repeated column names and the column numbers they occupy.
+    geometry : bool
+        Coordinates come from point geometries.
+    converted : bool
+        Those coordinates were already converted from the layer's CRS.
+    """
+
+    table: pd.DataFrame
+    rows: np.ndarray
+    reasons: np.ndarray
+    notes: list[str] = field(default_factory=list)
+    duplicates: dict[str, list[int]] = field(default_factory=dict)
+    geometry: bool = False
+    converted: bool = False
+
+
+def table_to_survey(raw: RawTable, *, source: str, columns: ColumnNames, fields, crs) -> Survey:
+    """Choose the columns of a raw table, validate every row and build the survey."""
+    table = raw.table
+    names = list(table.columns)
+    visible = [n for n in names if n not in ("__lon__", "__lat__")]
+    notes = list(raw.notes)
+    projected = crs is not None and not raw.geometry and not is_geographic(crs, source)
+    if raw.geometry:
+        lon_name, lat_name = "__lon__", "__lat__"
+    elif projected:
+        lon_name = _coordinate(visible, "x", "lon", columns.lon, source)
+        lat_name = _coordinate(visible, "y", "lat", columns.lat, source)
+    else:
+        lon_name, lat_name, note = _geographic_columns(table, visible, columns, source)
+        notes += note
+    line_name = find_column(visible, "line", columns.line, source=source, required=False)
+    time_name = find_column(visible, "time", columns.time, source=source, required=False)
+    stem = Path(source).stem
+    if line_name is None:
+        notes.append(f"{source}: no line column; all stations form one line named {stem!r}")
+    taken = {lon_name, lat_name, line_name, time_name, "__lon__", "__lat__"}
+    copies = {f"{name} (column {n})" for name, numbers in raw.duplicates.items() for n in numbers[1:]}
+    candidates = [n for n in visible if n not in taken and n not in copies]
+    if fields is None:
+        chosen = tuple(n for n in candidates if _mostly_numeric(table[n]))
+        required = False
+    else:
+        chosen = tuple(dict.fromkeys(_match_field(f, candidates, source) for f in fields))
+        required = True
+    needed = [lon_name, lat_name, line_name, time_name, *(chosen if required else ())]
+    _check_duplicates(raw.duplicates, needed, source, notes)
+
+    frame = pd.DataFrame(index=table.index)
+    frame["line"] = (
+        table[line_name].astype(str).str.strip()
+        if line_name is not None
+        else pd.Series(stem, index=table.index)
+    )
+    frame["lon"] = table[lon_name]
+    frame["lat"] = table[lat_name]
+    if time_name is not None:
+        frame["time"] = table[time_name]
+    for name in chosen:
+        frame[name] = table[name]
+    blank = _blank_rows(table) if not raw.geometry else np.zeros(len(table), bool)
+    survey = assemble_stations(
+        frame,
+        source=source,
+        rows=raw.rows,
+        fields=chosen,
+        has_time=time_name is not None,
+        required_fields=required,
+        blank=blank,
+        projected=projected,
+        crs=crs,
+        coordinate_names=(lon_name, lat_name) if not raw.geometry else ("point x", "point y"),
+        reasons=raw.reasons,
+        degrees=not raw.converted,
+    )
+    return Survey(survey.stations, survey.fields, survey.sources, tuple(notes) + survey.warnings)
+
+
+def _coordinate(visible, role: str, fallback: str, explicit, source: str) -> str:
+    """A projected coordinate column: by the easting/northing names, else by lon/lat names."""
+    if explicit is None:
+        for name in (role, fallback):
+            found = find_column(visible, name, None, source=source, required=False)
+            if found is not None:
+                return found
+    return find_column(visible, role, explicit, source=source, required=True)
+
+
+def _geographic_columns(table, visible, columns: ColumnNames, source: str):
+    """Longitude and latitude columns; x/y or easting/northing only when they hold degrees."""
+    lon = find_column(visible, "lon", columns.lon, source=source, required=False)
+    lat = find_column(visible, "lat", columns.lat, source=source, required=False)
+    if lon is not None and lat is not None:
+        return lon, lat, []
+    x = find_column(visible, "x", None, source=source, required=False)
+    y = find_column(visible, "y", None, source=source, required=False)
+    if x is None or y is None or columns.lon is not None or columns.lat is not None:
+        find_column(visible, "lon", columns.lon, source=source, required=True)
+        find_column(visible, "lat", columns.lat, source=source, required=True)
+    xs, _, _ = _numbers(table[x])
+    ys, _, _ = _numbers(table[y])
+    finite = np.isfinite(xs) & np.isfinite(ys)
+    degrees = bool(finite.any()) and bool(
+        np.all(np.abs(ys[finite]) <= 90) and np.all((xs[finite] >= -180) & (xs[finite] <= 360))
+    )
+    if not degrees:
+        values = np.abs(np.concatenate([xs[finite], ys[finite]]))
+        biggest = f" (values up to {values.max():.0f})" if values.size else ""
+        raise InputError(
+            f"{source}: no longitude/latitude columns; {x!r}/{y!r} look like projected "
+            f"coordinates{biggest}: give their CRS with --crs (e.g. EPSG:32735), or name "
+            f"the degree columns with --lon-column/--lat-column"
+        )
+    note = f"{source}: no longitude/latitude columns; {x!r}/{y!r} hold degrees and are read as such"
+    return x, y, [note]
+
+
+def _check_duplicates(duplicates: dict[str, list[int]], used, source: str, notes: list[str]) -> None:
+    """Refuse a repeated name the analysis needs; note the others (later copies unused)."""
+    used_keys = {normalise(n) for n in used if n is not None}
+    for name, numbers in duplicates.items():
+        where = ", ".join(map(str, numbers))
+        if normalise(name) in used_keys:
+            raise InputError(
+                f"{source}: column {name!r} appears {len(numbers)} times (columns {where}); "
+                f"expected each column name once"
+            )
+        notes.append(
+            f"{source}: column {name!r} appears {len(numbers)} times (columns {where}); "
+            f"only the first is read"
+        )
+
+
+def _match_field(name: str, candidates: list[str], source: str) -> str:
+    lowered = {normalise(c): c for c in reversed(candidates)}
+    if normalise(name) in lowered:
+        return lowered[normalise(name)]
+    import difflib
+
+    close = difflib.get_close_matches(normalise(name), list(lowered), n=3, cutoff=0.4)
+    hint = f"; closest: {', '.join(lowered[c] for c in close)}" if close else ""
+    raise InputError(f"{source}: no field column {name!r}; fields found: {listing(candidates)}{hint}")
+
+
+def _mostly_numeric(column: pd.Series) -> bool:
+    if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
+        return True
+    if not (pd.api.types.is_string_dtype(column) or column.dtype == object):
+        return False
+    text = column.astype(str).str.strip()
+    present = text[(text != "") & ~text.str.lower().isin(_MISSING_WORDS)]
+    if present.empty:
+        return False
+    parsed = pd.to_numeric(present, errors="coerce")
+    return bool(parsed.notna().mean() >= 0.5)
+
+
+def _blank_rows(table: pd.DataFrame) -> np.ndarray:
+    """Rows whose every cell is empty (NaN, or text of blanks)."""
+    blank = np.ones(len(table), bool)
+    for name in table.columns:
+        column = table[name]
+        empty = column.isna().to_numpy()
+        if not pd.api.types.is_numeric_dtype(column):
+            empty = empty | (column.astype(str).str.strip() == "").to_numpy()
+        blank &= empty
+        if not blank.any():
+            break
+    return blank
+
+
+def _numbers(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Parse a column: (values, missing mask, non-numeric mask)."""
+    if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
+        values = column.to_numpy(dtype=float, na_value=np.nan)
+        return values, np.isnan(values), np.zeros(len(values), bool)
+    text = column.astype(str).str.strip()
+    lowered = text.str.lower()
+    missing = (text == "").to_numpy() | column.isna().to_numpy() | lowered.isin(_MISSING_WORDS).to_numpy()
+    values = pd.to_numeric(text.where(~missing, None), errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+    nonnumeric = np.isnan(values) & ~missing
+    return values, missing, nonnumeric
+
+
+def _times(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Parse times to seconds since 1970 UTC: (seconds, missing mask, unreadable mask)."""
+    if pd.api.types.is_datetime64_any_dtype(column):
+        parsed = pd.to_datetime(column, utc=True)
+        seconds = (parsed - pd.Timestamp("1970-01-01", tz="UTC")).dt.total_seconds().to_numpy(dtype=float)
+        missing = np.isnan(seconds)
+        return seconds, missing, np.zeros(len(seconds), bool)
+    numeric, missing, nonnumeric = _numbers(column)
+    if not nonnumeric.any():
+        return numeric, missing, ~missing & ~np.isfinite(numeric)
+    text = column.astype(str).str.strip()
+    parsed = pd.to_datetime(text.where(~missing, None), utc=True, errors="coerce", format="ISO8601")
+    seconds = (parsed - pd.Timestamp("1970-01-01", tz="UTC")).dt.total_seconds().to_numpy(dtype=float)
+    return seconds, missing, np.isnan(seconds) & ~missing
+
+
+def assemble_stations(
+    frame: pd.DataFrame,
+    *,
+    source: str,
+    rows: np.ndarray,
+    fields: tuple[str, ...],
+    has_time: bool,
+    required_fields: bool = False,
+    blank: np.ndarray | None = None,
+    projected: bool = False,
+    crs: str | None = None,
+    coordinate_names: tuple[str, str] = ("lon", "lat"),
+    reasons: np.ndarray | None = None,
+    degrees: bool = True,
+) -> Survey:
+    """Validate a table with columns line, lon, lat, [time], fields; assign statuses.
+
+    The checks, in order (the first that fails names the reason): a reason given by the
+    reader (``reasons``: blank line, wrong number of fields); blank line; missing line id;
+    missing, non-numeric or non-finite coordinate; coordinate outside the CRS area (projected);
+    coordinate out of range; position (0, 0); missing or unreadable time; then, per field, a
+    value that is not a number, not finite, a no-data marker or beyond the physical bounds of
+    the field's kind (see :func:`profiles.columns.field_kind`), and (for requested fields) a
+    missing value. For fields not requested, unusable values become missing values with a
+    warning and the row stays in.
+
+    Parameters
+    ----------
+    degrees : bool
+        Whether ``lon``/``lat`` are degrees as given by the user (and so may be projected or
+        swapped by mistake); False for coordinates already converted from a declared CRS.
+    """
+    n = len(frame)
+    reason = np.full(n, "", dtype=object)
+    if reasons is not None:
+        reason[:] = np.asarray(reasons, dtype=object)
+    if blank is None:
+        blank = np.zeros(n, bool)
+    notes: list[str] = []
+    rows = np.asarray(rows, dtype=np.int64)
+
+    def mark(mask, text):
+        fresh = mask & (reason == "")
+        reason[fresh] = text
+
+    mark(blank, "blank line")
+    no_line = frame["line"].isna().to_numpy()
+    line = frame["line"].fillna("").astype(str).str.strip().to_numpy(dtype=object)
+    mark(no_line | np.isin(line, ["", "nan", "None", "<NA>"]), "missing line id")
+
+    lon, lon_missing, lon_text = _numbers(frame["lon"])
+    lat, lat_missing, lat_text = _numbers(frame["lat"])
+    mark(lon_missing | lat_missing, "missing coordinate")
+    mark(lon_text | lat_text, "non-numeric coordinate")
+    mark(~np.isfinite(lon) | ~np.isfinite(lat), "non-finite coordinate")
+    if projected:
+        finite = np.isfinite(lon) & np.isfinite(lat) & (reason == "")
+        _check_not_degrees(lon, lat, finite, source, coordinate_names, crs)
+        lon, lat = to_geographic(lon, lat, crs, source)
+        mark(finite & ~(np.isfinite(lon) & np.isfinite(lat)), "coordinate outside the CRS area")
+    elif degrees:
+        _check_degrees(lon, lat, reason == "", source, coordinate_names, rows)
+    with np.errstate(invalid="ignore"):
+        out_of_range = (np.abs(lat) > 90) | (lon < -180) | (lon > 360)
+    mark(out_of_range, "coordinate out of range")
+    mark((lon == 0) & (lat == 0), "position (0, 0)")
+    lon = np.where(np.isfinite(lon), ((lon + 180.0) % 360.0) - 180.0, lon)
+
+    if has_time:
+        time, time_missing, time_bad = _times(frame["time"])
+        if time_missing.all() or not np.isfinite(time).any():
+            notes.append(f"{source}: the time column holds no readable time; stations kept in file order")
+            time, has_time = np.full(n, np.nan), False
+        else:
+            mark(time_missing, "missing time")
+            mark(time_bad, "unreadable time")
+    else:
+        time = np.full(n, np.nan)
+
+    values = {}
+    for name in fields:
+        values[name] = _field(
+            name, frame[name], requested=required_fields, mark=mark, rows=rows, source=source, notes=notes
+        )
+
+    good = reason == ""
+    status = np.where(good, USED, DROPPED).astype(object)
+    stations = pd.DataFrame(
+        {
+            "source": source,
+            "row": rows,
+            "line": line.astype(str),
+            "lon": np.where(np.isfinite(lon), lon, np.nan),
+            "lat": np.where(np.isfinite(lat), lat, np.nan),
+            "time": time,
+            "status": status,
+            "reason": reason,
+        }
+    )
+    for name in fields:
+        stations[name] = values[name]
+    stations, moved = _order(stations, has_time)
+    if moved:
+        notes.append(
+            f"{source}: {moved} stations are not in time order in the file; "
+            f"stations of each line are taken in time order"
+        )
+    assert tuple(stations.columns[: len(BASE_COLUMNS)]) == BASE_COLUMNS
+    survey = Survey(stations.reset_index(drop=True), tuple(fields), (source,), tuple(notes))
+    if not (survey.stations["status"] == USED).any():
+        accounting = survey.accounting
+        reasons_text = ", ".join(f"{k}: {v}" for k, v in sorted(accounting.dropped.items()))
+        text_cells = np.flatnonzero(reason == "non-numeric coordinate")
+        example = ""
+        if text_cells.size:
+            i = int(text_cells[0])
+            cells = (str(frame["lon"].iloc[i]).strip(), str(frame["lat"].iloc[i]).strip())
+            example = (
+                f"; e.g. row {rows[i]}: {coordinate_names[0]} '{cells[0]}', {coordinate_names[1]} "
+                f"'{cells[1]}': coordinates must be decimal numbers"
+            )
+        raise InputError(f"{source}: no usable rows ({accounting.read} read; {reasons_text}){example}")
+    return survey
+
+
+def _field(name, column, *, requested: bool, mark, rows, source: str, notes: list[str]) -> np.ndarray:
+    """Values of one field; unusable ones are dropped (requested) or kept as missing."""
+    values, missing, text = _numbers(column)
+    kind = field_kind(name)
+    with np.errstate(invalid="ignore"):
+        infinite = np.isinf(values)
+        checked = requested or kind is not None
+        no_data = checked & (np.isin(values, NO_DATA_VALUES) | (np.abs(values) >= FILL_MAGNITUDE)) & ~infinite
+        beyond = (
+            ~kind.physical(values) & np.isfinite(values) & ~no_data
+            if kind is not None
+            else np.zeros(values.size, bool)
+        )
+    bounds = f" ({kind.describe()} for a {kind.kind})" if kind is not None else ""
+    problems = [
+        (text, f"non-numeric value in {name}", ("is not a number", "are not numbers")),
+        (infinite, f"non-finite value in {name}", ("is infinite", "are infinite")),
+        (no_data, f"no-data value in {name}", ("is a no-data marker", "are no-data markers")),
+        (beyond, f"value beyond physical bounds in {name}", ("is beyond physical bounds",) * 2),
+    ]
+    for mask, reason, (one, many) in problems:
+        count = int(np.count_nonzero(mask))
+        if not count:
+            continue
+        cells = [_cell_text(v) for v in column.to_numpy()[mask][:3]]
+        examples = ", ".join(f"{r} ({v})" for r, v in zip(rows[mask][:3], cells, strict=True))
+        examples = ("row " if count == 1 else "rows ") + examples + (", ..." if count > 3 else "")
+        what = f"1 value {one}" if count == 1 else f"{count} values {many.replace('is ', 'are ', 1)}"
+        if reason.startswith("value beyond"):
+            what += bounds
+        fate = "dropped" if requested else "kept as missing values"
+        hint = ""
+        if reason.startswith("value beyond") and kind.kind in ("depth", "elevation"):
+            hint = "; if the unit is not metres, say so in the column name (e.g. depth_ft)"
+        notes.append(f"{source}: {name}: {what}: {examples}; {fate}{hint}")
+        if requested:
+            mark(mask, reason)
+    if requested:
+        mark(missing, f"missing value in {name}")
+    bad = text | infinite | no_data | beyond
+    return np.where(bad | ~np.isfinite(values), np.nan, values)
+
+
+def _cell_text(value) -> str:
+    """A cell as the user wrote it, near enough: ``1e+12`` rather than ``1000000000000.0``."""
+    if isinstance(value, float | np.floating):
+        return f"{float(value):.10g}"
+    return str(value).strip()
+
+
+def _check_degrees(lon, lat, valid, source, names, rows) -> None:
+    """Refuse coordinates that are clearly projected or swapped (most values out of range)."""
+    if np.count_nonzero(valid) < 2:
+        return  # one row is no evidence about the columns; it is dropped if out of range
+    lo, la = lon[valid], lat[valid]
+    lat_bad = np.abs(la) > 90
+    lon_bad = (lo < -180) | (lo > 360)
+    if lat_bad.mean() > 0.5 or lon_bad.mean() > 0.5:
+        big = max(np.nanmax(np.abs(lo)), np.nanmax(np.abs(la)))
+        if big > 360:
+            raise InputError(
+                f"{source}: columns {names[0]!r}/{names[1]!r} hold values up to "
+                f"{big:.0f}, which are not degrees; these look like projected "
+                f"coordinates: give their CRS with --crs (e.g. EPSG:32735)"
+            )
+        if lat_bad.mean() > 0.5 and not np.any(np.abs(lo) > 90):
+            first = int(rows[np.flatnonzero(valid)[np.flatnonzero(lat_bad)[0]]])
+            raise InputError(
+                f"{source}: row {first}: latitude {names[1]!r} beyond 90 degrees while "
+                f"every longitude is within 90: the columns look swapped; name them "
+                f"with --lon-column and --lat-column"
+            )
+
+
+def _check_not_degrees(x, y, valid, source, names, crs) -> None:
+    """Refuse degrees passed as projected coordinates (with a projected --crs)."""
+    if not valid.any():
+        return
+    if np.all(np.abs(x[valid]) <= 360) and np.all(np.abs(y[valid]) <= 90):
+        raise InputError(
+            f"{source}: columns {names[0]!r}/{names[1]!r} hold values within +-360/+-90, which "
+            f"look like degrees, not the metres of the projected CRS {crs}; leave out --crs"
+        )
+
+
+def _order(stations: pd.DataFrame, has_time: bool) -> tuple[pd.DataFrame, int]:
+    """Order stations by line (first appearance), then time (where present), then file row.
+
+    Returns the ordered table and the number of used stations whose place within their line
+    differs from file order because of their time.
+    """
+    codes, _ = pd.factorize(stations["line"], sort=False)
+    row = stations["row"].to_numpy()
+    by_row = np.lexsort((row, codes))
+    if not has_time:
+        return stations.iloc[by_row], 0
+    time = np.nan_to_num(stations["time"].to_numpy(), nan=np.inf)
+    by_time = np.lexsort((row, time, codes))
+    used = stations["status"].to_numpy() == USED
+    moved = int(np.count_nonzero(by_time[used[by_time]] != by_row[used[by_row]]))
+    return stations.iloc[by_time], moved
+
+
+def is_geographic(crs, source: str) -> bool:
+    """Whether a CRS given by the user is geographic (degrees)."""
+    return crs_object(crs, source).is_geographic
+
+
+def crs_object(crs, source: str):
+    """A :class:`pyproj.CRS` from user input, or an error naming the file."""
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+
+    try:
+        return CRS.from_user_input(crs)
+    except CRSError:
+        raise InputError(f"{source}: unknown CRS {crs!r}; expected e.g. EPSG:32735") from None
+
+
+def to_geographic(x, y, crs, source: str):
+    """Projected coordinates to WGS84 longitude/latitude (``always_xy``); failures are NaN."""
+    from pyproj import Transformer
+
+    transformer = Transformer.from_crs(crs_object(crs, source), "EPSG:4326", always_xy=True)
+    with np.errstate(invalid="ignore"):
+        lon, lat = transformer.transform(np.asarray(x, dtype=float), np.asarray(y, dtype=float))
+    lon = np.where(np.isfinite(lon), lon, np.nan)
+    lat = np.where(np.isfinite(lat), lat, np.nan)
+    return lon, lat

@@ -1,0 +1,345 @@
+"""Delimited text files (CSV, TSV, semicolon, pipe or whitespace separated) into a table of
+text cells, one row per file line below the header.
+
+Rules (``docs/input-handling.md`` states them for users):
+
+* Encoding: a byte-order mark decides (UTF-8, UTF-16, UTF-32); UTF-16 without one is
+  recognised by its zero bytes; otherwise UTF-8, and failing that Latin-1 with a warning.
+* Files that are not text (GeoPackage/SQLite, zip or Excel workbook, Parquet, gzip, PDF, or any
+  content with zero bytes) are refused with what they look like.
+* Leading blank lines, comment lines (``#``) and an Excel ``sep=;`` line are skipped; the
+  first other line is the header, which must hold names, not numbers (a comment line just
+  above a first line of numbers that reads as a header of as many columns is the header).
+  A row equal to the header is dropped ("repeated header").
+* The delimiter is the one of ``, TAB ; |`` or runs of whitespace that splits the header into
+  the most columns while splitting at least half of the next 50 rows into as many. A file
+  whose header and rows disagree is refused. A row with another number of fields than the
+  header is dropped ("wrong number of fields"), never shifted into the wrong columns.
+* Fields may be quoted (``"12.5"``). Blank rows (or rows of empty fields) are kept as rows and
+  dropped later as "blank line", so the row accounting counts them.
+* Repeated column names: later copies are renamed ``NAME (column N)``; whether that matters
+  is decided when the columns are chosen.
+* With a delimiter other than the comma, a column whose numbers all use decimal commas
+  (``12,5``) is read with decimal points; a column that mixes ``12,5`` and ``12.5`` is left
+  alone (its comma cells are then not numbers).
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .columns import ALIASES, normalise
+from .errors import InputError
+from .stations import RawTable
+
+_DELIMITERS = (",", "\t", ";", "|", " ")
+_NEWLINE = re.compile(r"\r\n|\r|\n")
+_DECIMAL_COMMA = r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?"
+_DECIMAL_POINT = r"[+-]?(?:\d+\.\d*|\.\d+)(?:[eE][+-]?\d+)?"
+#: File signatures of formats that are not text, and what to tell the user.
+_SIGNATURES = (
+    (b"SQLite format 3\x00", "is an SQLite database (a GeoPackage?); give it the .gpkg suffix"),
+    (b"PK\x03\x04", "is a zip archive (an Excel workbook?); export the sheet as CSV, or unzip it"),
+    (b"PAR1", "is a Parquet file; give it the .parquet suffix"),
+    (b"\x1f\x8b", "is gzip-compressed; decompress it first"),
+    (b"%PDF", "is a PDF document; expected a delimited text file"),
+)
+
+
+def _decode(raw: bytes, source: str) -> tuple[str, list[str]]:
+    """Decode text: a byte-order mark decides; else UTF-8, else Latin-1 (with a note)."""
+    boms = (
+        (codecs.BOM_UTF32_LE, "utf-32"),
+        (codecs.BOM_UTF32_BE, "utf-32"),
+        (codecs.BOM_UTF8, "utf-8"),
+        (codecs.BOM_UTF16_LE, "utf-16"),
+        (codecs.BOM_UTF16_BE, "utf-16"),
+    )
+    encoding = next((e for bom, e in boms if raw.startswith(bom)), None) or _utf16_without_bom(raw)
+    if encoding == "utf-8":
+        raw = raw[len(codecs.BOM_UTF8) :]
+    elif encoding is not None:
+        try:
+            return raw.decode(encoding), []
+        except UnicodeDecodeError as error:
+            raise InputError(
+                f"{source}: looks like {encoding.upper()} text but is not valid {encoding.upper()} "
+                f"(byte {error.start}); save it again as UTF-8"
+            ) from None
+    try:
+        return raw.decode("utf-8"), []
+    except UnicodeDecodeError as error:
+        line = raw.count(b"\n", 0, error.start) + 1
+        note = (
+            f"{source}: not UTF-8 (line {line} has byte 0x{raw[error.start]:02X}); read as "
+            f"Latin-1 (ISO 8859-1): check names and line ids, or save the file as UTF-8"
+        )
+        return raw.decode("latin-1"), [note]
+
+
+def _utf16_without_bom(raw: bytes) -> str | None:
+    """UTF-16 text without a byte-order mark: mostly ASCII characters with a zero byte each."""
+    sample = raw[:4096]
+    if len(sample) < 8 or b"\x00" not in sample:
+        return None
+    even, odd = sample[0::2], sample[1::2]
+    if odd.count(0) > 0.9 * len(odd) and even.count(0) < 0.1 * len(even):
+        return "utf-16-le"
+    if even.count(0) > 0.9 * len(even) and odd.count(0) < 0.1 * len(odd):
+        return "utf-16-be"
+    return None
+
+
+def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
+    """Read a delimited text file into a :class:`~profiles.stations.RawTable` of text cells.
+
+    Rows with another number of fields than the header, and blank rows, get their reason here.
+    With a delimiter other than the comma, decimal commas are read as points in every column
+    that uses them throughout, except the line column (``line_column`` or a line alias).
+    """
+    source = str(path)
+    try:
+        raw = path.read_bytes()
+    except OSError as error:
+        raise InputError(f"{source}: cannot be read ({error.strerror or error})") from None
+    if not raw.strip():
+        raise InputError(f"{source}: file is empty; expected a header row and data rows")
+    for signature, message in _SIGNATURES:
+        if raw.startswith(signature):
+            raise InputError(f"{source}: {message}")
+    text, notes = _decode(raw, source)
+    if "\x00" in text[:65536]:
+        raise InputError(f"{source}: binary content; expected a delimited text file with a header row")
+    lines = _NEWLINE.split(text)
+    if lines and lines[-1] == "":
+        lines.pop()  # the newline that ends the last row
+
+    # Preamble: blank lines, comment lines, an Excel "sep=;" line.
+    delimiter = None
+    first = 0
+    while first < len(lines):
+        stripped = lines[first].strip()
+        match = re.fullmatch(r"sep=(.)", stripped) if delimiter is None else None
+        if match:
+            delimiter = match.group(1)
+        elif stripped and not stripped.startswith("#"):
+            break
+        first += 1
+    if first == len(lines):
+        raise InputError(f"{source}: holds only comments; expected a header row and data rows")
+    header, body = lines[first], lines[first + 1 :]
+    if delimiter is None:
+        delimiter = _detect_delimiter(header, body, source=source, line=first + 1)
+    names = [name.strip() for name in _split(header, delimiter)]
+    commented = _commented_header(lines, first, delimiter, len(names))
+    if commented is not None and any(_is_number(name) for name in names):
+        # "# lon lat depth" above the first row of numbers: the comment is the header.
+        first -= 1
+        header, body, names = lines[first], lines[first + 1 :], commented
+        notes.append(f"{source}: line {first + 1} is a commented header; its names are the columns")
+    if not any(names):
+        raise InputError(f"{source}: line {first + 1} holds no column names; expected a header row")
+    if all(_is_number(name) for name in names if name):
+        raise InputError(
+            f"{source}: line {first + 1} holds numbers, not column names; "
+            f"expected a header row such as 'line,lon,lat,depth_m'"
+        )
+    if not any(line.strip() for line in body):
+        raise InputError(
+            f"{source}: has a header row ({len(names)} columns) but no data rows; "
+            f"expected one row per station below the header"
+        )
+    names = [name or f"column_{i + 1}" for i, name in enumerate(names)]
+    names, duplicates = _unique_names(names)
+
+    blank = np.array([not line.strip() for line in body], dtype=bool)
+    stripped_header = header.strip()
+    repeated = np.array([line.strip() == stripped_header for line in body], dtype=bool)
+    counts = _field_counts(body, delimiter)
+    ragged = ~blank & ~repeated & (counts != len(names))
+    reasons = np.full(len(body), "", dtype=object)
+    reasons[blank] = "blank line"
+    reasons[repeated] = "repeated header"
+    reasons[ragged] = "wrong number of fields"
+    if repeated.any():
+        notes.append(
+            f"{source}: the header is repeated at {rows_text(np.flatnonzero(repeated) + first + 2)} "
+            f"(files joined together?); dropped"
+        )
+    if ragged.any():
+        rows = np.flatnonzero(ragged) + first + 2
+        notes.append(
+            f"{source}: {rows_text(rows)} do not have {len(names)} fields separated by "
+            f"{delimiter_name(delimiter)} like the header; dropped"
+        )
+    line_names = {normalise(n) for n in (*ALIASES["line"], line_column or "")}
+    text_names = line_names | {normalise(n) for n in ALIASES["time"]}
+    as_text = [normalise(n) in text_names for n in names]
+    table = _parse_cells(body, ~ragged & ~blank & ~repeated, names, delimiter, as_text)
+    if delimiter != ",":
+        numeric = [n for n in names if normalise(n) not in line_names]
+        converted = _decimal_commas(table, numeric)
+        if converted:
+            notes.append(
+                f"{source}: decimal commas read as decimal points in {', '.join(converted)} "
+                f"(the file is separated by {delimiter_name(delimiter)})"
+            )
+    rows = np.arange(len(body)) + first + 2  # file line numbers; the header is line first + 1
+    return RawTable(table, rows, reasons, notes, duplicates)
+
+
+def _commented_header(lines: list[str], first: int, delimiter: str, width: int) -> list[str] | None:
+    """Names of a comment line just above line ``first`` that reads as a header of ``width``
+    columns (``# lon lat depth_m``), else None."""
+    if first == 0 or not lines[first - 1].lstrip().startswith("#"):
+        return None
+    names = [n.strip() for n in _split(lines[first - 1].lstrip().lstrip("#").strip(), delimiter)]
+    if len(names) != width or not all(names) or any(_is_number(n) for n in names):
+        return None
+    return names
+
+
+def _detect_delimiter(header: str, body: list[str], *, source: str, line: int) -> str:
+    """The delimiter that splits the header into the most columns and most rows alike."""
+    sample = [row for row in body[:200] if row.strip()][:50]
+    best, best_score, header_only = None, 0.0, None
+    for delimiter in _DELIMITERS:
+        count = len(_split(header, delimiter))
+        if count < 2:
+            continue
+        share = np.mean([len(_split(row, delimiter)) == count for row in sample]) if sample else 1.0
+        if share < 0.5:
+            header_only = header_only or (delimiter, count)
+            continue
+        score = count * share
+        if score > best_score:
+            best, best_score = delimiter, score
+    if best is not None:
+        return best
+    if header_only is not None:
+        delimiter, count = header_only
+        rows_by = next(
+            (d for d in _DELIMITERS if np.mean([len(_split(row, d)) == count for row in sample]) >= 0.5),
+            None,
+        )
+        seen = f"; the rows look separated by {delimiter_name(rows_by)}" if rows_by else ""
+        raise InputError(
+            f"{source}: line {line}: the header has {count} columns separated by "
+            f"{delimiter_name(delimiter)} but most rows do not{seen}; use one delimiter throughout"
+        )
+    return ","  # one column: the column search names what is missing
+
+
+def _split(line: str, delimiter: str) -> list[str]:
+    if delimiter == " ":
+        return line.split()
+    return next(csv.reader([line], delimiter=delimiter), [])
+
+
+def _field_counts(lines: list[str], delimiter: str) -> np.ndarray:
+    """Number of fields of each line (quoted fields through the csv module)."""
+    if delimiter == " ":
+        return np.array([len(line.split()) for line in lines], dtype=np.int64)
+    counts = np.array([line.count(delimiter) + 1 for line in lines], dtype=np.int64)
+    for i, line in enumerate(lines):
+        if '"' in line:
+            counts[i] = len(_split(line, delimiter))
+    return counts
+
+
+def _parse_cells(
+    body: list[str], good: np.ndarray, names: list[str], delimiter: str, as_text: list[bool]
+) -> pd.DataFrame:
+    """Cells of the good rows; other rows get empty cells (their reason is set).
+
+    The fast parser reads a column of numbers as float64 (``inf`` included) and any other
+    column as text, with empty cells as NaN; columns flagged ``as_text`` (line ids, times) are
+    always text, so that ``007`` stays ``007``. The slow path gives text everywhere.
+    """
+    width = len(names)
+    if delimiter != " ":
+        kept = "\n".join(line if ok else "" for line, ok in zip(body, good, strict=True))
+        try:
+            table = pd.read_csv(
+                io.StringIO(kept),
+                sep=delimiter,
+                header=None,
+                names=list(range(width)),
+                dtype={i: str for i, text in enumerate(as_text) if text},
+                keep_default_na=False,
+                na_values=[""],
+                skip_blank_lines=False,
+                engine="c",
+            )
+        except (pd.errors.ParserError, ValueError):
+            table = None
+        if table is not None and len(table) == len(body):
+            table.columns = names
+            return table
+    # Whitespace-separated files, and text the fast parser reads differently (an unclosed
+    # quote swallowing later lines): one row per line, always.
+    empty = [""] * width
+    cells = [_split(line, delimiter) if ok else empty for line, ok in zip(body, good, strict=True)]
+    return pd.DataFrame(cells, columns=names, dtype=str)
+
+
+def _unique_names(names: list[str]) -> tuple[list[str], dict[str, list[int]]]:
+    """Rename later copies of a repeated column name; report the repeats (column numbers)."""
+    seen: dict[str, list[int]] = {}
+    for i, name in enumerate(names):
+        seen.setdefault(normalise(name), []).append(i + 1)
+    duplicates = {names[cols[0] - 1]: cols for cols in seen.values() if len(cols) > 1}
+    unique = list(names)
+    for cols in seen.values():
+        for number in cols[1:]:
+            unique[number - 1] = f"{names[number - 1]} (column {number})"
+    return unique, duplicates
+
+
+def _decimal_commas(table: pd.DataFrame, names) -> list[str]:
+    """Read decimal commas as points in the named columns that use them throughout (in place)."""
+    converted = []
+    for name in names:
+        column = table[name]
+        if pd.api.types.is_numeric_dtype(column):
+            continue
+        text = column.fillna("").astype(str).str.strip()
+        comma = text.str.fullmatch(_DECIMAL_COMMA).fillna(False).astype(bool)
+        if not comma.any():
+            continue
+        if text.str.fullmatch(_DECIMAL_POINT).any():
+            continue  # mixed styles: the comma cells stay unreadable numbers
+        table[name] = text.where(~comma, text.str.replace(",", ".", regex=False))
+        converted.append(str(name))
+    return converted
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def delimiter_name(delimiter: str) -> str:
+    """The delimiter in words: ``"commas"``, ``"tabs"``, ..."""
+    named = {",": "commas", "\t": "tabs", ";": "semicolons", "|": "pipes", " ": "spaces"}
+    return named.get(delimiter, repr(delimiter))
+
+
+def rows_text(rows, limit: int = 5) -> str:
+    """``"row 7"``, ``"rows 4, 9"`` or ``"rows 4, 9, 12, 15, 20 and 3 more"``."""
+    rows = [int(r) for r in rows]
+    if len(rows) == 1:
+        return f"row {rows[0]}"
+    shown = ", ".join(map(str, rows[:limit]))
+    more = f" and {len(rows) - limit} more" if len(rows) > limit else ""
+    return f"rows {shown}{more}"
