@@ -29,6 +29,22 @@ def length(what: str):
     return parse
 
 
+def fraction(what: str):
+    """argparse type for a fraction strictly between 0 and 1 (``0.05``, ``0.01``)."""
+
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{what}: {text!r} is not a number; write e.g. 0.01") from None
+        if not 0.0 < value < 1.0:
+            raise argparse.ArgumentTypeError(f"{what}: {text!r} must lie strictly between 0 and 1")
+        return value
+
+    parse.__name__ = "fraction"
+    return parse
+
+
 def gap_value(text: str):
     """argparse type for ``--gap``: a multiple (``5x``) or a length (``3km``)."""
     try:

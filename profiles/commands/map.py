@@ -4,7 +4,15 @@ from __future__ import annotations
 
 import argparse
 
-from .common import add_output_arguments, add_survey_arguments, length, load, print_json, report_warnings
+from .common import (
+    add_output_arguments,
+    add_survey_arguments,
+    fraction,
+    length,
+    load,
+    print_json,
+    report_warnings,
+)
 
 NAME = "map"
 HELP = "dominant wavelength in windows along each line, on a map, with aliasing warnings"
@@ -36,20 +44,6 @@ This is an aliasing audit, not for navigation: a survey's fitness for charting i
 the applicable hydrographic survey standards by a qualified surveyor."""
 
 OUTPUTS = ("map.png", "map.svg", "profiles.gpkg", "windows.csv")
-
-
-def _fraction(what: str):
-    def parse(text: str) -> float:
-        try:
-            value = float(text)
-        except ValueError:
-            raise argparse.ArgumentTypeError(f"{what}: {text!r} is not a number") from None
-        if not 0.0 < value < 1.0:
-            raise argparse.ArgumentTypeError(f"{what}: {text!r} must lie strictly between 0 and 1")
-        return value
-
-    parse.__name__ = "fraction"
-    return parse
 
 
 def _factor(text: str) -> float:
@@ -86,13 +80,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     group.add_argument(
         "--alpha",
-        type=_fraction("--alpha"),
+        type=fraction("--alpha"),
         default=0.05,
         help="significance level of the red-noise test (default 0.05)",
     )
     group.add_argument(
         "--rolloff-share",
-        type=_fraction("--rolloff-share"),
+        type=fraction("--rolloff-share"),
         default=0.1,
         metavar="SHARE",
         help="flag 'rolloff' above this share of variance just below the local Nyquist (default 0.1)",
@@ -108,7 +102,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     budget = parser.add_argument_group("aliasing budget (with --shortest-wavelength)")
     budget.add_argument(
         "--alias-tolerance",
-        type=_fraction("--alias-tolerance"),
+        type=fraction("--alias-tolerance"),
         default=0.01,
         metavar="FRACTION",
         help="largest acceptable aliased power at the shortest wavelength, as a fraction of the "
@@ -191,8 +185,18 @@ def run(args: argparse.Namespace) -> int:
         print(str(windows))
         print()
         shown = frame[
-            ["line", "segment", "center_km", "dominant_wavelength_km", "variance_fraction",
-             "fisher_p_value", "red_noise_significant", "local_spacing_km", "local_nyquist_km", "reasons"]
+            [
+                "line",
+                "segment",
+                "center_km",
+                "dominant_wavelength_km",
+                "variance_fraction",
+                "fisher_p_value",
+                "red_noise_significant",
+                "local_spacing_km",
+                "local_nyquist_km",
+                "reasons",
+            ]
         ]
         shown = shown.assign(
             fisher_p_value=[f"{p:.2e}" for p in shown["fisher_p_value"]],

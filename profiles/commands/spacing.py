@@ -5,6 +5,10 @@ from __future__ import annotations
 import argparse
 
 from .common import add_output_arguments, add_survey_arguments, length, load, print_json, report_warnings
+from .common import fraction as fraction_of
+
+#: argparse type of ``--alias-tolerance`` (the batch command uses it too).
+fraction = fraction_of("--alias-tolerance")
 
 NAME = "spacing"
 HELP = "audit station spacing per segment against the wavelengths you need"
@@ -47,17 +51,6 @@ SHOWN_STRETCH_COLUMNS = (
     "recommended_spacing_km",
     "exceeds_recommendation",
 )
-
-
-def fraction(text: str) -> float:
-    """argparse type for a fraction in (0, 1), e.g. 0.01."""
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"cannot read {text!r} as a fraction; write e.g. 0.01") from None
-    if not 0.0 < value < 1.0:
-        raise argparse.ArgumentTypeError(f"{text!r} must be a fraction between 0 and 1, e.g. 0.01 for 1 %")
-    return value
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
