@@ -14,7 +14,12 @@ Conventions (stated once, used everywhere in this module):
 - Squared coherence ``γ² = |S_xy|² / (S_xx S_yy)``.
 - Zero-coherence significance level ``c_α = 1 - α^(1/(n-1))`` for n independent estimates
   (Carter, Knapp & Nuttall 1973; Thompson 1979; from memory). For overlapping Welch blocks n
-  is the effective number ``ν/2`` of Percival & Walden (1993) eq. (292b).
+  is the effective number ``ν/2`` of Percival & Walden (1993) eq. (292b)
+  (:func:`profiles.spectral.psd.welch_dof`).
+- The tapered Fourier coefficients are those of the spectral core,
+  :func:`profiles.spectral.psd.welch_coefficients` and
+  :func:`profiles.spectral.psd.multitaper_coefficients`: the one-sided densities are
+  ``onesided * mean(conj(C_x) C_y)`` over the stack of blocks or tapers.
 - Random error of the gain ``ε = sqrt(1 - γ²) / (|γ| sqrt(2 n))`` (Bendat & Piersol, Random
   Data, from memory); ``admittance_err = ε |Z|``.
 
@@ -31,8 +36,9 @@ from typing import Literal, get_args
 
 import numpy as np
 
-from ._tapered import Detrend, WelchTaper, dpss_eigencoefficients, welch_blocks
 from .errors import InputError, SpacingError
+from .spectral.preprocess import Detrend, Taper
+from .spectral.psd import multitaper_coefficients, welch_coefficients, welch_dof
 
 #: Averaging methods for cross-spectra.
 CrossMethod = Literal["welch", "multitaper"]
@@ -199,7 +205,7 @@ def cross_spectrum(
     method: CrossMethod = "welch",
     segment_length: float | None = None,
     overlap: float = 0.5,
-    taper: WelchTaper = "hann",
+    taper: Taper = "hann",
     nw: float = 4.5,
     n_tapers: int | None = None,
     detrend: Detrend = "linear",
@@ -227,13 +233,14 @@ def cross_spectrum(
         ``1 / segment_length``. Segments shorter than a block contribute nothing.
     overlap : float
         Welch overlap fraction, in [0, 1).
-    taper : {"hann", "hamming", "blackman", "boxcar"}
-        Welch taper (periodic).
+    taper : str or tuple
+        Welch taper, a window of :func:`scipy.signal.get_window` (periodic form); ``"boxcar"``
+        or None for none.
     nw : float
         Multitaper time-half-bandwidth product; full bandwidth ``2 nw / (N spacing)``.
     n_tapers : int, optional
         Number of DPSS tapers, at most ``floor(2 nw) - 1`` (the default).
-    detrend : {"linear", "constant", "none"}
+    detrend : {"linear", "mean"}
         Trend removed per Welch block, or per segment for multitaper.
     alpha : float
         False-alarm probability of the coherence significance level.
@@ -270,14 +277,17 @@ def cross_spectrum(
             raise InputError("method 'welch' needs segment_length in metres, e.g. 50000.0")
 
         def coefficients(values):
-            return welch_blocks(
+            blocks = welch_coefficients(
                 values,
                 spacing=step,
                 segment_length=segment_length,
                 overlap=overlap,
                 taper=taper,
                 detrend=detrend,
+                min_blocks=0,
             )
+            dof = welch_dof(blocks.weights, shift=blocks.shift_samples, n_segments=blocks.n_segments)
+            return blocks.coefficients, blocks.onesided, blocks.wavenumber, 0.5 * dof
 
         how = f"Welch blocks of {segment_length:g} m at {overlap:g} overlap"
     else:
@@ -288,22 +298,23 @@ def cross_spectrum(
         n_fft = max(a.size for a in inputs)
 
         def coefficients(values):
-            return dpss_eigencoefficients(
+            eigen = multitaper_coefficients(
                 values, spacing=step, nw=nw, n_tapers=k_tapers, detrend=detrend, n_fft=n_fft
             )
+            # Equal weights: each eigenspectrum is one independent estimate (2 dof).
+            return eigen.coefficients, eigen.onesided, eigen.wavenumber, float(eigen.n_tapers)
 
         how = f"{k_tapers} DPSS tapers (nw {nw:g})"
 
     rows_x, rows_y, n_estimates, n_used = [], [], 0.0, 0
     for a, b in zip(inputs, outputs, strict=True):
-        cx, cy = coefficients(a), coefficients(b)
-        if cx.coefficients.shape[0] == 0:
+        cx, onesided, wavenumber, worth = coefficients(a)
+        if cx.shape[0] == 0:
             continue
-        rows_x.append(cx.coefficients)
-        rows_y.append(cy.coefficients)
-        n_estimates += cx.effective_n
+        rows_x.append(cx)
+        rows_y.append(coefficients(b)[0])
+        n_estimates += worth
         n_used += 1
-        wavenumber = cx.wavenumber
     if n_estimates < min_estimates:
         raise InputError(
             f"coherence needs at least {min_estimates:g} independent estimates, these data give "
@@ -312,11 +323,11 @@ def cross_spectrum(
         )
     big_x, big_y = np.concatenate(rows_x), np.concatenate(rows_y)
     keep = slice(1, wavenumber.size - 1 if np.isclose(wavenumber[-1] * 2 * step, 1.0) else None)
-    big_x, big_y, wavenumber = big_x[:, keep], big_y[:, keep], wavenumber[keep]
+    big_x, big_y, wavenumber, onesided = big_x[:, keep], big_y[:, keep], wavenumber[keep], onesided[keep]
 
-    s_xx = np.mean(np.abs(big_x) ** 2, axis=0)
-    s_yy = np.mean(np.abs(big_y) ** 2, axis=0)
-    s_xy = np.mean(np.conj(big_x) * big_y, axis=0)
+    s_xx = onesided * np.mean(big_x.real**2 + big_x.imag**2, axis=0)
+    s_yy = onesided * np.mean(big_y.real**2 + big_y.imag**2, axis=0)
+    s_xy = onesided * np.mean(np.conj(big_x) * big_y, axis=0)
     coherence = _safe_divide(np.abs(s_xy) ** 2, s_xx * s_yy)
     coherence = np.minimum(coherence, 1.0)
     admittance = _safe_divide(s_xy, s_xx.astype(complex))

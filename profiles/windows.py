@@ -3,10 +3,14 @@
 Every uniformly resampled segment (:class:`profiles.resample.UniformSegment`) is cut into
 windows of ``window`` metres that start every ``step`` metres; windows never leave their
 segment, so they never cross a gap or a sharp turn. All windows of a segment are analysed
-together: one strided view (``numpy.lib.stride_tricks.sliding_window_view``), one linear
-detrend, one batched real FFT through :func:`profiles.spectral.harmonics.harmonic_variances`,
-and the significance tests of :mod:`profiles.spectral.significance` on the whole batch. No
-Python loop runs per window.
+together: one strided view (``numpy.lib.stride_tricks.sliding_window_view``, the windows are
+never copied), their least-squares slopes from sums over the blocks they share
+(:func:`profiles.spectral.preprocess.window_slopes`), one batched real FFT with the mean and
+line removed in the transform (:func:`profiles.spectral.harmonics.detrended_harmonics`),
+and the significance tests of :mod:`profiles.spectral.significance` on the whole batch
+(the lag-1 coefficient from the variances, :func:`~profiles.spectral.significance.lag1_from_harmonics`;
+the red-noise test at the dominant harmonic only,
+:func:`~profiles.spectral.significance.red_noise_at`). No Python loop runs per window.
 
 Per window
 ----------
@@ -58,12 +62,9 @@ import numpy as np
 
 from .errors import InputError, SpacingError
 from .resample import UniformSegment
-from .spectral.harmonics import harmonic_variances
-from .spectral.preprocess import Detrend, check_option, check_probability, remove_trend
-from .spectral.significance import (
-    fisher_m,
-    fisher_p_value,
-)
+from .spectral.harmonics import detrended_harmonics
+from .spectral.preprocess import Detrend, check_option, check_probability, window_slopes
+from .spectral.significance import fisher_m, fisher_p_value, lag1_from_harmonics, red_noise_at
 
 #: Aliasing reasons, in the order they are listed.
 REASONS = ("spacing", "rolloff", "near-nyquist")
@@ -584,24 +585,28 @@ def _segment_windows(track: UniformSegment, index: int, *, n: int, stride: int, 
     count = (track.n - n) // stride + 1
     offset = (track.n - n - (count - 1) * stride) // 2
     first = offset + stride * np.arange(count)
+    # A strided view: the windows are never copied. The mean and line of every window are
+    # removed inside its transform, and the lag-1 coefficient comes from the variances.
     frames = sliding_window_view(track.values, n)[offset :: stride][:count]
-    residual, _, _ = remove_trend(frames, settings.detrend)
-    # The residual has no mean (and no line): "mean" here repeats nothing but a subtraction.
-    variance = harmonic_variances(residual, detrend="mean")
+    slope = None
+    if settings.detrend == "linear":  # from sums over blocks the overlapping windows share
+        slope = window_slopes(track.values[offset:], length=n, step=stride)[:count]
+    harmonics = detrended_harmonics(frames, detrend=settings.detrend, slope=slope, peak_from=2)
+    variance = harmonics.variance
     dx = track.spacing
     m = fisher_m(n)
-    rows = np.arange(count)
-    dominant = np.argmax(variance[:, 2 : m + 1], axis=1) + 2
-    peak = variance[rows, dominant]
-    total = variance[:, 1:].sum(axis=1)
+    dominant = harmonics.peak_harmonic
+    peak = variance[np.arange(count), dominant]
+    total = harmonics.total_variance
     tested = total - variance[:, -1] if n % 2 == 0 else total  # Fisher's m leaves out Nyquist
-    lag1 = _lag1(residual, total)
+    lag1 = lag1_from_harmonics(harmonics, estimator="corrected")
     flat = total > 0
     with np.errstate(invalid="ignore", divide="ignore"):
         fraction = np.where(flat, peak / np.where(flat, total, 1.0), np.nan)
         g = np.where(tested > 0, peak / np.where(tested > 0, tested, 1.0), 0.0)
     p_value = np.where(flat, fisher_p_value(np.clip(g, 0.0, 1.0), m=m), np.nan)
-    significant = _red_noise_at(peak, total, lag1, dominant, n=n, alpha=settings.alpha) & flat
+    significant = red_noise_at(peak, harmonic=dominant, total=total, lag1=lag1, n=n,
+                               alpha=settings.alpha) & flat
 
     start = track.start + first * dx
     end = start + (n - 1) * dx
@@ -670,47 +675,116 @@ def _range_reduce(ufunc: np.ufunc, values: np.ndarray, lo: np.ndarray, hi: np.nd
     return result
 
 
-#: Largest matrix (cells) :func:`_range_median` builds at once; more rows are done in blocks.
+#: Largest matrix (cells) :func:`_range_select` builds at once; more rows are done in blocks.
 _MEDIAN_CELLS = 1 << 23
 
 
-def _range_median(values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Median of ``values[lo_i:hi_i]`` for every i (lo_i < hi_i), without a loop per range.
+def _range_select(values: np.ndarray, lo: np.ndarray, hi: np.ndarray, rank: np.ndarray,
+                  *, following: bool = False):
+    """The ``rank_i``-th smallest (from 0) of ``values[lo_i:hi_i]`` for every i, no loop.
 
-    Each range is copied into a row of one matrix, shifted so that its lower middle value
-    has the same rank in every row: cells before a range hold -inf, cells after it +inf.
-    One ``partition`` at that column then gives every lower middle value, and the smallest
-    value right of it the upper middle value of ranges of even length. Ranges of very
-    different lengths would make a wide, mostly empty matrix; above ``_MEDIAN_CELLS`` cells
-    the rows are split into two blocks (recursively), each with its own width.
+    Each range is copied into a row of one matrix, shifted so that the value wanted has the
+    same column in every row: cells before a range hold -inf, cells after it +inf. One
+    ``partition`` at that column then gives every value wanted, and with ``following`` also
+    the next larger one (the smallest right of that column; +inf if the range has no more).
+    Above ``_MEDIAN_CELLS`` cells the rows are split into two blocks (recursively), each
+    with its own width.
     """
     from numpy.lib.stride_tricks import sliding_window_view
 
+    if lo.size == 0:
+        return (np.zeros(0), np.zeros(0)) if following else np.zeros(0)
     count = hi - lo
-    width = int(count.max()) + (int(count.max()) - int(count.min())) // 2 + 2
-    if count.size > 1 and count.size * width > _MEDIAN_CELLS:
-        half = count.size // 2
-        return np.concatenate([_range_median(values, lo[:half], hi[:half]),
-                               _range_median(values, lo[half:], hi[half:])])
-    below = int(count.max() - 1) // 2  # the column of every lower middle value
-    lead = below - (count - 1) // 2  # -inf cells before each range
+    column = int(rank.max())
+    lead = column - rank  # -inf cells before each range
     stop = lead + count  # +inf cells from here
     width = int(stop.max()) + 1
+    if count.size > 1 and count.size * width > _MEDIAN_CELLS:
+        half = count.size // 2
+        parts = (_range_select(values, lo[:half], hi[:half], rank[:half], following=following),
+                 _range_select(values, lo[half:], hi[half:], rank[half:], following=following))
+        if following:
+            return tuple(np.concatenate(pair) for pair in zip(*parts, strict=True))
+        return np.concatenate(parts)
     first = lo - lead
-    left = max(0, -int(first.min()))
-    right = max(0, int(first.max()) + width - values.size)
-    source = np.concatenate([np.zeros(left), values, np.zeros(right)]) if left or right else values
-    matrix = sliding_window_view(source, width)[first + left]
-    column = np.arange(width)
+    cells = np.arange(width)
+    if first.min() >= 0 and first.max() + width <= values.size:
+        matrix = sliding_window_view(values, width)[first]
+    else:  # rows that reach past either end read clipped indices there (cells masked below)
+        matrix = np.take(values, first[:, None] + cells, mode="clip")
     head = int(lead.max())
     if head:
-        matrix[:, :head][column[:head] < lead[:, None]] = -np.inf
+        matrix[:, :head][cells[:head] < lead[:, None]] = -np.inf
     tail = int(stop.min())
-    matrix[:, tail:][column[tail:] >= stop[:, None]] = np.inf
-    matrix.partition(below, axis=1)
-    lower = matrix[:, below]
-    upper = matrix[:, below + 1 :].min(axis=1)
-    return np.where(count % 2 == 1, lower, 0.5 * (lower + upper))
+    matrix[:, tail:][cells[tail:] >= stop[:, None]] = np.inf
+    matrix.partition(column, axis=1)
+    if following:
+        return matrix[:, column].copy(), matrix[:, column + 1 :].min(axis=1)
+    return matrix[:, column].copy()
+
+
+#: Ranges sampled to place the band of :func:`_range_median`.
+_BAND_SAMPLES = 32
+#: Groups of ranges (by the rank wanted) for one selection each in :func:`_range_median`.
+_RANK_GROUPS = 8
+
+
+def _range_median(values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Median of ``values[lo_i:hi_i]`` for every i (lo_i < hi_i), exactly.
+
+    Ranges of overlapping windows share most of their values, and copying every range whole
+    (to partition it) touches each value several times. Along a track the middle values of
+    neighbouring windows differ little, so:
+
+    1. a band [low, high] of values is placed from a sample of the ranges: the lowest and
+       highest of their values a few ranks either side of their middle, found exactly;
+    2. the positions of the values up to ``high``, and among those the ones inside the
+       band, are listed in position order, so that a range's values inside the band are a
+       contiguous stretch of the second list, and its count below the band the difference
+       of two stretch lengths;
+    3. where both middle values of a range lie inside the band (its rank minus the count
+       below the band falls inside its stretch), :func:`_range_select` finds them in the
+       stretch, a few times shorter than the range; the few ranges whose middle falls
+       outside the band get the whole-range selection.
+
+    The median of an even count is the mean of the two middle values, as ``numpy.median``
+    gives it.
+    """
+    if lo.size == 0:
+        return np.zeros(0)
+    count = hi - lo
+    rank = (count - 1) // 2  # the lower middle value; the upper one is rank + 1 when even
+    even = (count % 2 == 0).astype(np.int64)
+    sample = np.unique(np.linspace(0, lo.size - 1, min(lo.size, _BAND_SAMPLES)).astype(np.int64))
+    margin = np.maximum(2, count[sample] // 32)
+    low = _range_select(values, lo[sample], hi[sample], np.maximum(rank[sample] - margin, 0)).min()
+    high = _range_select(values, lo[sample], hi[sample],
+                         np.minimum(rank[sample] + even[sample] + margin, count[sample] - 1)).max()
+    # Positions of the values up to the top of the band, then which of those are in it.
+    up_to = np.flatnonzero(values <= high)
+    candidates = values[up_to]
+    band = np.flatnonzero(candidates >= low)
+    reach = np.searchsorted(up_to, lo), np.searchsorted(up_to, hi)
+    first, stop = np.searchsorted(band, reach[0]), np.searchsorted(band, reach[1])
+    local = rank - (reach[1] - reach[0] - (stop - first))  # rank minus the count below
+    inside = (local >= 0) & (local + even < stop - first)
+    lower = np.empty(lo.size)
+    upper = np.empty(lo.size)
+    good = np.flatnonzero(inside)
+    if good.size and high == low:  # equal steps (regular stations): nothing to select
+        lower[good] = upper[good] = low
+    elif good.size:
+        # Ranges sorted by the rank wanted and selected in groups, so that the alignment
+        # of _range_select wastes few cells.
+        inner = candidates[band]
+        for group in np.array_split(good[np.argsort(local[good], kind="stable")], _RANK_GROUPS):
+            if group.size:
+                lower[group], upper[group] = _range_select(inner, first[group], stop[group],
+                                                           local[group], following=True)
+    bad = np.flatnonzero(~inside)
+    if bad.size:
+        lower[bad], upper[bad] = _range_select(values, lo[bad], hi[bad], rank[bad], following=True)
+    return np.where(even == 1, 0.5 * (lower + upper), lower)
 
 
 def _rolloff_share(variance: np.ndarray, total: np.ndarray, *, n: int, spacing: float, local_nyquist):
@@ -721,61 +795,16 @@ def _rolloff_share(variance: np.ndarray, total: np.ndarray, *, n: int, spacing: 
         top = np.minimum(n * spacing / local_nyquist, 0.5 * n)  # in harmonics
     high = np.minimum(np.floor(top + 1e-9).astype(np.int64), width - 1)
     low = np.floor((1.0 - ROLLOFF_BAND) * top + 1e-9).astype(np.int64)
-    base = np.arange(count) * width
     some = high > low
     band = np.zeros(count)
-    if some.any():
+    if some.all() and np.ptp(low) == 0 and np.ptp(high) == 0:  # one band for every window
+        band = variance[:, low[0] + 1 : high[0] + 1].sum(axis=1)
+    elif some.any():
+        base = np.arange(count) * width
         flat = variance.reshape(-1)
         band[some] = _range_reduce(np.add, flat, (base + low + 1)[some], (base + high + 1)[some])
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(total > 0, band / np.where(total > 0, total, 1.0), 0.0)
-
-
-#: Largest |r| of the AR(1) background, as in profiles.spectral.significance.
-_LAG1_LIMIT = 0.999
-
-
-def _lag1(residual: np.ndarray, total: np.ndarray) -> np.ndarray:
-    """Bias-corrected lag-1 autocorrelation of detrended windows (rows of ``residual``).
-
-    The estimator of :func:`profiles.spectral.significance.lag1_autocorrelation` with
-    ``estimator="corrected"``: r = sum y_j y_(j+1) / sum y_j^2, then (N r + 1)/(N - 3),
-    clipped to +-0.999. The denominator is (N - 1) times the total harmonic variance
-    (Parseval), which the windows have already; and the residual is detrended already,
-    which the spectral function would repeat. tests/test_windows.py checks it against that
-    function.
-    """
-    count = residual.shape[-1]
-    numerator = np.einsum("ij,ij->i", residual[:, :-1], residual[:, 1:])
-    denominator = (count - 1) * total
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r = np.where(denominator > 0, numerator / np.where(denominator > 0, denominator, 1.0), 0.0)
-    return np.clip((count * r + 1.0) / (count - 3.0), -_LAG1_LIMIT, _LAG1_LIMIT)
-
-
-def _red_noise_at(peak, total, lag1, harmonic, *, n: int, alpha: float) -> np.ndarray:
-    """Whether harmonic ``harmonic`` (0 < k < N/2) of each window is above its AR(1) background.
-
-    The same test as :func:`profiles.spectral.significance.red_noise_from_variances`
-    (variance > V d_k P_k / sum_j d_j P_j * chi2_2(1 - alpha) / 2), evaluated at one
-    harmonic per window instead of all of them. The normaliser has a closed form: by the
-    symmetry P_k = P_{N-k} it is half the sum over k = 1..N-1, and the sum over a whole
-    period of the AR(1) spectrum (a Poisson kernel) is N (1 + r^N) / (1 - r^N), so
-
-        sum_{j>=1} d_j P_j = (N (1 + r^N) / (1 - r^N) - (1 + r) / (1 - r)) / 2.
-
-    That spares building the (windows x harmonics) background. The spectral module does
-    not offer the test at chosen harmonics; tests/test_windows.py checks this helper
-    against it.
-    """
-    from scipy.stats import chi2
-
-    r = np.clip(np.asarray(lag1, dtype=float), -_LAG1_LIMIT, _LAG1_LIMIT)
-    shape = (1.0 - r**2) / (1.0 + r**2 - 2.0 * r * np.cos(2.0 * np.pi * harmonic / n))
-    power = r**n
-    normaliser = 0.5 * (n * (1.0 + power) / (1.0 - power) - (1.0 + r) / (1.0 - r))
-    threshold = total * shape / normaliser * (chi2.ppf(1.0 - alpha, 2.0) / 2.0)
-    return peak > threshold
 
 
 # --- assembling ----------------------------------------------------------------------------------

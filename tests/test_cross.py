@@ -1,4 +1,5 @@
-"""Tests of profiles.cross (coherence, admittance, load model) and profiles._tapered."""
+"""Tests of profiles.cross (coherence, admittance, load model) and of the spectral-core
+coefficients it is built on (profiles.spectral.psd)."""
 
 from __future__ import annotations
 
@@ -6,7 +7,6 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from profiles._tapered import dpss_eigencoefficients, welch_blocks, welch_effective_n
 from profiles.cross import (
     CrossSpectrum,
     cross_spectrum,
@@ -14,6 +14,7 @@ from profiles.cross import (
     uncompensated_admittance,
 )
 from profiles.errors import InputError, SpacingError
+from profiles.spectral.psd import multitaper_coefficients, welch_coefficients, welch_dof
 
 SPACING = 100.0
 
@@ -37,16 +38,18 @@ def red_profile(n, *, spacing, rng, std):
 
 class TestAgainstScipy:
     # scipy.signal.csd / coherence / welch on the same data and settings (segment of 256
-    # samples, 50 % overlap, periodic Hann, same detrend); DC and Nyquist are not in ours.
-    @pytest.mark.parametrize("detrend", ["constant", "linear"])
+    # samples, 50 % overlap, periodic Hann, same detrend: our "mean" is scipy's "constant");
+    # DC and Nyquist are not in ours.
+    @pytest.mark.parametrize("detrend, scipy_detrend", [("mean", "constant"), ("linear", "linear")])
     @pytest.mark.parametrize("taper", ["hann", "hamming", "boxcar"])
-    def test_csd_coherence_welch(self, detrend, taper):
+    def test_csd_coherence_welch(self, detrend, scipy_detrend, taper):
         first, second = related_pair(5000, seed=1)
         ours = cross_spectrum(
             first, second, spacing=SPACING, segment_length=256 * SPACING, overlap=0.5,
             taper=taper, detrend=detrend,
         )
-        options = dict(fs=1 / SPACING, window=taper, nperseg=256, noverlap=128, detrend=detrend)
+        options = dict(fs=1 / SPACING, window=taper, nperseg=256, noverlap=128,
+                       detrend=scipy_detrend)
         k, pxy = signal.csd(first, second, **options)
         _, coherence = signal.coherence(first, second, **options)
         _, pxx = signal.welch(first, **options)
@@ -156,30 +159,50 @@ class TestSignificance:
 
 class TestEffectiveNumber:
     def test_hann_half_overlap_table(self):
-        # references.md section 4 (P&W 292b; 36 N_B² / (19 N_B - 1)), ν = 2 n_eff.
+        # references.md section 4 (P&W 292b; 36 N_B² / (19 N_B - 1)), ν = 2 n_eff: through
+        # welch_dof and through the n_estimates of a cross-spectrum of N_B blocks of 128
+        # samples every 64 (N_B = 2 gives n_eff < 2, which a cross-spectrum refuses).
         taper = signal.get_window("hann", 128, fftbins=True)
         table = {2: 3.8919, 5: 9.5745, 10: 19.0476, 20: 37.9947, 50: 94.8367}
+        rng = np.random.default_rng(11)
         for n_blocks, nu in table.items():
-            got = 2 * welch_effective_n(taper, n_blocks=n_blocks, shift=64)
-            assert got == pytest.approx(nu, abs=1e-4)
+            assert welch_dof(taper, shift=64, n_segments=n_blocks) == pytest.approx(nu, abs=1e-4)
+            if n_blocks == 2:
+                continue
+            a, b = rng.standard_normal((2, 64 * (n_blocks + 1)))
+            ours = cross_spectrum(a, b, spacing=1.0, segment_length=128.0, overlap=0.5,
+                                  min_estimates=2)
+            assert 2 * ours.n_estimates == pytest.approx(nu, abs=1e-4)
 
     def test_no_overlap_counts_blocks(self):
         taper = signal.get_window("hann", 128, fftbins=True)
-        assert welch_effective_n(taper, n_blocks=7, shift=128) == 7
+        assert welch_dof(taper, shift=128, n_segments=7) == 14
 
     def test_blocks_and_tapers_shapes(self):
         values = np.random.default_rng(0).standard_normal(1000)
-        blocks = welch_blocks(
+        blocks = welch_coefficients(
             values, spacing=10.0, segment_length=1000.0, overlap=0.5, taper="hann"
         )
         # Blocks of 100 samples every 50: (1000 - 100) / 50 + 1 = 19 (as scipy.signal.csd).
         assert blocks.coefficients.shape == (19, 51)
-        tapers = dpss_eigencoefficients(values, spacing=10.0, nw=4.0, n_tapers=7)
+        tapers = multitaper_coefficients(values, spacing=10.0, nw=4.0, n_tapers=7)
         assert tapers.coefficients.shape == (7, 501)
-        assert tapers.effective_n == 7
+        assert tapers.n_tapers == 7
         # Percival & Walden / Thomson: the first 2NW - 1 concentrations are near 1 (common
         # practice; references.md section 3 gives the table).
         assert np.all(tapers.eigenvalues > 0.9)
+
+    def test_short_segments_contribute_nothing(self):
+        # A segment shorter than one block adds no estimate; one that holds a single block
+        # adds one (the blocks of all segments are pooled).
+        rng = np.random.default_rng(10)
+        long_a, long_b = rng.standard_normal((2, 128 * 9))
+        short_a, short_b = rng.standard_normal((2, 100))
+        one_a, one_b = rng.standard_normal((2, 130))
+        ours = cross_spectrum([long_a, short_a, one_a], [long_b, short_b, one_b], spacing=1.0,
+                              segment_length=128.0, overlap=0.0, taper="boxcar")
+        assert ours.n_segments == 2
+        assert ours.n_estimates == 10
 
     def test_multitaper_density_is_flat_for_white_noise(self):
         # One-sided density of unit-variance white noise at spacing Δ is 2Δ (common practice,
@@ -187,7 +210,7 @@ class TestEffectiveNumber:
         rng = np.random.default_rng(12)
         inputs = [rng.standard_normal(600) for _ in range(40)]
         ours = cross_spectrum(
-            inputs, inputs, spacing=SPACING, method="multitaper", detrend="constant"
+            inputs, inputs, spacing=SPACING, method="multitaper", detrend="mean"
         )
         assert np.mean(ours.input_density) == pytest.approx(2 * SPACING, rel=0.03)
 

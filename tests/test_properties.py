@@ -243,6 +243,8 @@ row_kinds = st.lists(st.sampled_from(["good", "good", "repeat", *BAD_ROWS]), min
 def test_row_accounting_always_adds_up(kinds, crlf):
     kinds = ["good", "good", *kinds]  # at least two stations to analyse
     assume(kinds.count("lat 91") < kinds.count("good"))  # else the columns look swapped
+    # a file whose rows mostly disagree with the header's delimiter is refused, not read
+    assume(kinds.count("ragged") < kinds.count("good"))
     lines, expected, good, repeats, last_good = ["line,lon,lat,depth_m"], Counter(), 0, 0, 0
     lon = -30.0
     for kind in kinds:

@@ -29,7 +29,6 @@ from profiles.spectral.significance import (
     fisher_m,
     fisher_p_value,
     lag1_autocorrelation,
-    red_noise_from_variances,
     red_noise_test,
 )
 from profiles.survey import Survey
@@ -37,7 +36,7 @@ from profiles.windows import (
     COLUMNS,
     _range_median,
     _range_reduce,
-    _red_noise_at,
+    _range_select,
     along_track_windows,
     default_window,
     round_up_length,
@@ -250,30 +249,24 @@ def test_batched_windows_equal_a_loop_over_windows(n_window):
     assert table.rolloff_risk.any()
 
 
-@pytest.mark.parametrize("n", [64, 65, 1024])
-def test_red_noise_at_one_harmonic_equals_the_full_test(n):
-    # Reference: profiles.spectral.significance.red_noise_from_variances over all harmonics.
-    rng = np.random.default_rng(n)
-    lag1 = np.array([-0.999, -0.5, 0.0, 0.3, 0.9, 0.999, 0.9995])
-    variances = rng.exponential(1.0, (lag1.size, n // 2 + 1)) / (1 + np.arange(n // 2 + 1)) ** 0.5
-    full = red_noise_from_variances(variances, n=n, lag1=lag1, spacing=100.0, alpha=0.05)
-    total = variances[:, 1:].sum(axis=1)
-    for k in (1, 2, n // 5, (n - 1) // 2):
-        harmonic = np.full(lag1.size, k)
-        got = _red_noise_at(variances[:, k], total, lag1, harmonic, n=n, alpha=0.05)
-        np.testing.assert_array_equal(got, full.significant[:, k])
-        # The thresholds themselves agree: scale the variance to sit just either side.
-        for factor, expected in ((1 - 1e-10, False), (1 + 1e-10, True)):
-            edge = _red_noise_at(full.threshold[:, k] * factor, total, lag1, harmonic, n=n, alpha=0.05)
-            assert np.all(edge == expected)
-
-
 @pytest.mark.parametrize("cells", [1 << 23, 500])  # one matrix, and rows split into blocks
-def test_range_statistics_equal_numpy(monkeypatch, cells):
-    # Reference: numpy.median, numpy.max and numpy.sum over each slice.
+@pytest.mark.parametrize(
+    "kind", ["uniform", "rounded", "constant", "spread", "signed", "gappy"]
+)
+def test_range_statistics_equal_numpy(monkeypatch, cells, kind):
+    # Reference: numpy.median, numpy.max and numpy.sum over each slice. The kinds cover many
+    # ties (steps rounded to 0.1 m, all steps equal), values over many orders of magnitude,
+    # negative values (for the class order) and a few huge steps among regular ones.
     monkeypatch.setattr(profiles.windows, "_MEDIAN_CELLS", cells)
     rng = np.random.default_rng(7)
-    values = rng.uniform(100.0, 300.0, 3000)
+    values = {
+        "uniform": rng.uniform(100.0, 300.0, 3000),
+        "rounded": np.round(rng.exponential(5.0, 3000), 1) + 0.1,
+        "constant": np.full(3000, 250.0),
+        "spread": np.exp(rng.normal(0.0, 5.0, 3000)),
+        "signed": rng.normal(0.0, 50.0, 3000),
+        "gappy": np.where(rng.random(3000) < 0.01, 20_000.0, rng.uniform(240.0, 260.0, 3000)),
+    }[kind]
     lo = np.sort(rng.integers(0, 2990, 400))
     hi = np.minimum(lo + rng.integers(1, 700, 400), values.size)
     hi[-5:] = values.size  # ranges that run to the end
@@ -284,6 +277,9 @@ def test_range_statistics_equal_numpy(monkeypatch, cells):
                                   [np.max(values[a:b]) for a, b in zip(lo, hi, strict=True)])
     np.testing.assert_allclose(_range_reduce(np.add, values, lo, hi),
                                [np.sum(values[a:b]) for a, b in zip(lo, hi, strict=True)], rtol=1e-13)
+    rank = rng.integers(0, hi - lo)
+    np.testing.assert_array_equal(_range_select(values, lo, hi, rank),
+                                  [np.sort(values[a:b])[r] for a, b, r in zip(lo, hi, rank, strict=True)])
 
 
 # --- segments, gaps and bad input -------------------------------------------------------------

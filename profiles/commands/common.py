@@ -36,9 +36,11 @@ def fraction(what: str):
         try:
             value = float(text)
         except ValueError:
-            raise argparse.ArgumentTypeError(f"{what}: {text!r} is not a number; write e.g. 0.01") from None
+            raise argparse.ArgumentTypeError(
+                f"{what}: {text!r} is not a number; write a fraction such as 0.01"
+            ) from None
         if not 0.0 < value < 1.0:
-            raise argparse.ArgumentTypeError(f"{what}: {text!r} must lie strictly between 0 and 1")
+            raise argparse.ArgumentTypeError(f"{what}: {text!r} must be a fraction strictly between 0 and 1")
         return value
 
     parse.__name__ = "fraction"

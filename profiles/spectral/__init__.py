@@ -8,7 +8,8 @@ dataclasses with ``to_frame()`` (units in the column names, per km) and a readab
 Modules
 -------
 harmonics
-    Harmonic table (Fourier coefficients, variance per harmonic); batched variances.
+    Harmonic table (Fourier coefficients, variance per harmonic); batched variances, and the
+    detrended harmonics of many windows with the sums their tests need.
 significance
     Fisher's g test (white noise) and the AR(1) red-noise test.
 psd
@@ -31,8 +32,14 @@ from .aliasing import (
     nyquist_wavelength,
     nyquist_wavenumber,
 )
-from .harmonics import HarmonicTable, harmonic_table, harmonic_variances
-from .preprocess import Detrend, Taper
+from .harmonics import (
+    DetrendedHarmonics,
+    HarmonicTable,
+    detrended_harmonics,
+    harmonic_table,
+    harmonic_variances,
+)
+from .preprocess import Detrend, Taper, window_slopes
 from .psd import (
     ConfidenceFactors,
     MultitaperCoefficients,
@@ -59,6 +66,8 @@ from .significance import (
     fisher_p_value,
     fisher_test,
     lag1_autocorrelation,
+    lag1_from_harmonics,
+    red_noise_at,
     red_noise_from_variances,
     red_noise_test,
 )
@@ -75,6 +84,7 @@ __all__ = [
     "ConfidenceFactors",
     "DepthFit",
     "Detrend",
+    "DetrendedHarmonics",
     "FalseAlarmMethod",
     "FisherTest",
     "HarmonicTable",
@@ -92,6 +102,7 @@ __all__ = [
     "apparent_wavenumber",
     "ar1_background",
     "confidence_factors",
+    "detrended_harmonics",
     "fisher_critical_value",
     "fisher_critical_value_approx",
     "fisher_from_variances",
@@ -102,6 +113,7 @@ __all__ = [
     "harmonic_variances",
     "is_aliased",
     "lag1_autocorrelation",
+    "lag1_from_harmonics",
     "lomb_scargle",
     "multitaper_coefficients",
     "multitaper_psd",
@@ -109,6 +121,7 @@ __all__ = [
     "nyquist_wavenumber",
     "periodogram",
     "power_law_fit",
+    "red_noise_at",
     "red_noise_from_variances",
     "red_noise_test",
     "source_depth",
@@ -116,4 +129,5 @@ __all__ = [
     "welch_coefficients",
     "welch_dof",
     "welch_psd",
+    "window_slopes",
 ]

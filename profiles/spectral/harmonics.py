@@ -32,6 +32,7 @@ from functools import cached_property, lru_cache
 
 import numpy as np
 
+from ..errors import InputError
 from .preprocess import (
     Detrend,
     Taper,
@@ -46,7 +47,13 @@ from .preprocess import (
     taper_weights,
 )
 
-__all__ = ["HarmonicTable", "harmonic_table", "harmonic_variances"]
+__all__ = [
+    "DetrendedHarmonics",
+    "HarmonicTable",
+    "detrended_harmonics",
+    "harmonic_table",
+    "harmonic_variances",
+]
 
 _MIN_SAMPLES = 3
 
@@ -66,6 +73,12 @@ def _centred_transform(count: int) -> np.ndarray:
 # Elements handled per block in the finishing pass: about 0.5 MB of complex numbers, so that
 # each block stays in cache while it is corrected, squared and scaled.
 _BLOCK = 32768
+# Coefficients per transform when only the variances are wanted: many short series are
+# transformed a chunk of rows at a time into one buffer of about 2 MB, and finished while
+# that chunk is still in cache, instead of writing the whole transform out to memory first.
+_CHUNK = 131072
+# numpy >= 2 lets rfft write into a buffer given.
+_RFFT_OUT = np.lib.NumpyVersion(np.__version__) >= "2.0.0"
 
 
 def _spectrum(
@@ -74,7 +87,8 @@ def _spectrum(
     """Detrend, taper and transform along the last axis; harmonic variances.
 
     Returns the rfft Z of the preprocessed series (with ``as_coefficients``, scaled in place
-    to Z * 2 / (N sqrt(w2)) = a_k - i b_k, before the edge rows are fixed), the harmonic
+    to Z * 2 / (N sqrt(w2)) = a_k - i b_k, before the edge rows are fixed; None without it
+    and without a taper, where :func:`_untapered_variances` does the work), the harmonic
     variances, the means and the slopes per sample; w2 is the taper's mean square.
 
     With a taper, the series is detrended, tapered and transformed. Without one, the values
@@ -94,6 +108,9 @@ def _spectrum(
         residual *= weights
         coefficients = np.fft.rfft(residual, axis=-1)
         power_norm = float(np.mean(weights**2))
+    elif not as_coefficients:
+        variances, mean, slope, _ = _untapered_variances(values, detrend)
+        return None, variances, mean, slope
     else:
         coefficients = np.fft.rfft(values, axis=-1)
         if not np.all(np.isfinite(coefficients[..., 0])):
@@ -109,41 +126,114 @@ def _spectrum(
     return coefficients, variances, mean, slope
 
 
+def _untapered_variances(
+    values: np.ndarray,
+    detrend: Detrend,
+    known: np.ndarray | None = None,
+    *,
+    peak_from: int | None = None,
+):
+    """Variances, means and slopes of untapered series, transformed a chunk of rows at a time.
+
+    The arithmetic of :func:`_spectrum` without a taper (the mean and line removed in the
+    transform); only the order of the work differs: each chunk of about ``_CHUNK``
+    coefficients is transformed into one reused buffer and finished at once. ``known``:
+    slopes given by the caller (linear detrend), else computed per chunk. With
+    ``peak_from``, the sums of :class:`DetrendedHarmonics` are formed per chunk too and
+    returned as a fourth item (total, circular lag-1 sum, peak harmonic), else None.
+    """
+    count = values.shape[-1]
+    width = count // 2 + 1
+    flat = values.reshape(-1, count)
+    rows = flat.shape[0]
+    variances = np.empty((rows, width))
+    mean = np.empty(rows)
+    slope = np.zeros(rows) if known is None else known.reshape(rows)
+    if peak_from is not None:
+        total, circular, peak = np.empty(rows), np.empty(rows), np.empty(rows, dtype=np.int64)
+        cosine = np.cos(2.0 * np.pi * np.arange(1, width) / count)
+        top = (count - 1) // 2
+    chunk = max(1, _CHUNK // width)
+    buffer = np.empty((min(chunk, rows), width), dtype=np.complex128)
+    for start in range(0, rows, chunk):
+        part = flat[start : start + chunk]
+        if _RFFT_OUT:
+            transform = np.fft.rfft(part, axis=-1, out=buffer[: part.shape[0]])
+        else:
+            transform = np.fft.rfft(part, axis=-1)
+        if not np.all(np.isfinite(transform[:, 0])):
+            check_finite(values)
+        here = slice(start, start + part.shape[0])
+        mean[here] = transform[:, 0].real / count
+        transform[:, 0] = 0.0
+        correction = None
+        if detrend == "linear" and known is None:
+            slope[here] = correction = line_slope(part)
+        elif detrend == "linear":
+            correction = slope[here]
+        done = _finish(transform, count, 1.0, correction, None, out=variances[here])
+        if peak_from is not None:
+            above = done[:, 1:]
+            np.sum(above, axis=1, out=total[here])
+            np.einsum("ij,j->i", above, cosine, out=circular[here])
+            np.argmax(done[:, peak_from : top + 1], axis=1, out=peak[here])
+    shape = values.shape[:-1]
+    sums = None
+    if peak_from is not None:
+        sums = (total.reshape(shape), circular.reshape(shape), peak.reshape(shape) + peak_from)
+    return variances.reshape(*shape, width), mean.reshape(shape), slope.reshape(shape), sums
+
+
 def _finish(
     coefficients: np.ndarray,
     count: int,
     power_norm: float,
     slope: np.ndarray | None,
     scale: float | None,
+    *,
+    out: np.ndarray | None = None,
 ) -> np.ndarray:
     """One blocked pass over the transform: remove the line, form the variances, scale.
 
     Z_k -= slope * rfft(c)_k (if ``slope`` is given), then
     s_k^2 = 2 |Z_k|^2 / (N (N - 1) w2) for 0 < k < N/2 and half that at k = 0 and at
     k = N/2 (N even), w2 the taper's mean square, then Z_k *= scale (if given). Done in
-    blocks of about 0.5 MB so that every block is read from memory once.
+    blocks of about 0.5 MB so that every block is read from memory once, with the
+    intermediate products in one buffer made once; |Z|^2 is Re^2 + Im^2, squared on the real
+    view and summed in pairs. When the coefficients are not wanted (``scale`` None) the
+    transform is only read: the corrected block lives in the buffer, which halves the
+    memory traffic of this pass.
     """
     width = coefficients.shape[-1]
     flat = coefficients.reshape(-1, width)
-    variances = np.empty(coefficients.shape)
+    variances = np.empty(coefficients.shape) if out is None else out
     out = variances.reshape(-1, width)
     factor = 2.0 / (count * (count - 1) * power_norm)
     line = _centred_transform(count) if slope is not None else None
     slopes = np.reshape(slope, (-1, 1)) if slope is not None else None
     rows_per_block = max(1, _BLOCK // width)
+    columns_per_block = min(width, _BLOCK)
+    buffer = np.empty((min(rows_per_block, flat.shape[0]), columns_per_block), dtype=np.complex128)
     for row in range(0, flat.shape[0], rows_per_block):
         rows = slice(row, row + rows_per_block)
         for column in range(0, width, _BLOCK):
             columns = slice(column, column + _BLOCK)
             part = flat[rows, columns]
+            scratch = buffer[: part.shape[0], : part.shape[1]]
             if line is not None:
-                part -= slopes[rows] * line[columns]
+                np.multiply(slopes[rows], line[columns], out=scratch)
+                if scale is None:  # the corrected block goes to the buffer only
+                    np.subtract(part, scratch, out=scratch)
+                    part = scratch
+                else:
+                    part -= scratch
             target = out[rows, columns]
-            np.abs(part, out=target)
-            np.square(target, out=target)
+            squares = scratch.view(np.float64)
+            np.square(part.view(np.float64), out=squares)
+            np.add(squares[:, 0::2], squares[:, 1::2], out=target)
             target *= factor
             if scale is not None:
-                part *= scale
+                flat[rows, columns] *= scale
     variances[..., 0] *= 0.5
     if count % 2 == 0:
         variances[..., -1] *= 0.5
@@ -191,6 +281,140 @@ def harmonic_variances(
     """
     array = as_values(values, min_length=_MIN_SAMPLES, batched=True, finite=False)
     return _spectrum(array, detrend, taper)[1]
+
+
+@dataclass(frozen=True)
+class DetrendedHarmonics:
+    """Untapered harmonic variances of many series, with what the detrending removed.
+
+    For one series of shape (N,) the per-series attributes are scalars (0-d arrays); for a
+    batch (..., N) they have shape (...). The sums below are formed while each chunk of
+    variances is still in cache, which for thousands of along-track windows is several
+    times cheaper than passes over the finished array.
+
+    Attributes
+    ----------
+    variance : ndarray, shape (..., N//2 + 1)
+        s_k^2, field units squared, as :func:`harmonic_variances` without a taper.
+    mean : ndarray, shape (...)
+        Mean of every series, field units.
+    slope : ndarray, shape (...)
+        Slope of the removed least-squares line, field units per sample (0 for ``"mean"``).
+    first, last : ndarray, shape (...)
+        The detrended series' first and last values, r_0 = y_0 - mean + slope (N - 1)/2 and
+        r_{N-1} = y_{N-1} - mean - slope (N - 1)/2.
+    total_variance : ndarray, shape (...)
+        sum_{k>=1} s_k^2: the sample variance of each detrended series (Parseval).
+    circular_lag1 : ndarray, shape (...)
+        sum_{k>=1} s_k^2 cos(2 pi k / N), which equals the circular lag-1 sum
+        sum_j r_j r_{(j+1) mod N} / (N - 1) of the detrended series r (Wiener-Khinchin
+        relation of the DFT; common practice).
+    peak_harmonic : ndarray of int, shape (...)
+        The harmonic with the largest variance among k = ``peak_from``..floor((N - 1)/2)
+        (the Nyquist harmonic of even N left out, as in Fisher's test).
+    peak_from : int
+        Lowest harmonic of that search.
+    n : int
+        Samples per series N.
+    detrend : str
+        ``"linear"`` or ``"mean"``.
+    """
+
+    variance: np.ndarray = field(repr=False)
+    mean: np.ndarray = field(repr=False)
+    slope: np.ndarray = field(repr=False)
+    first: np.ndarray = field(repr=False)
+    last: np.ndarray = field(repr=False)
+    total_variance: np.ndarray = field(repr=False)
+    circular_lag1: np.ndarray = field(repr=False)
+    peak_harmonic: np.ndarray = field(repr=False)
+    peak_from: int
+    n: int
+    detrend: str
+
+    def to_frame(self):
+        """One row per series: ``mean``, ``slope_per_sample``, ``first``, ``last``,
+        ``total_variance``, ``circular_lag1`` (field units, per sample, squared) and
+        ``peak_harmonic``."""
+        import pandas as pd
+
+        return pd.DataFrame(
+            {
+                "mean": np.ravel(self.mean),
+                "slope_per_sample": np.ravel(self.slope),
+                "first": np.ravel(self.first),
+                "last": np.ravel(self.last),
+                "total_variance": np.ravel(self.total_variance),
+                "circular_lag1": np.ravel(self.circular_lag1),
+                "peak_harmonic": np.ravel(self.peak_harmonic),
+            }
+        )
+
+    def __str__(self) -> str:
+        count = int(np.prod(self.variance.shape[:-1]))
+        return (
+            f"Harmonic variances of {count} series of {self.n} samples (detrend {self.detrend}), "
+            f"{self.variance.shape[-1]} harmonics each; median total variance "
+            f"{float(np.median(self.total_variance)):.6g}"
+        )
+
+
+def detrended_harmonics(
+    values: object, *, detrend: Detrend = "linear", slope: object = None, peak_from: int = 1
+) -> DetrendedHarmonics:
+    """Untapered harmonic variances of one or many series, with the removed mean and line.
+
+    The same single batched FFT as :func:`harmonic_variances` (the mean and line removed in
+    the transform), plus the means, slopes, the detrended series' end values and the sums of
+    :class:`DetrendedHarmonics`, formed chunk by chunk while the variances are in cache.
+
+    Parameters
+    ----------
+    values : array_like, shape (..., N)
+        Uniformly spaced samples, series along the last axis, N >= 3, all finite. A strided
+        view (e.g. :func:`numpy.lib.stride_tricks.sliding_window_view`) is read in place.
+    detrend : {"linear", "mean"}
+        Removed from every series.
+    slope : array_like, shape (...), optional
+        The least-squares slopes of the series (field units per sample), when already known,
+        e.g. from :func:`profiles.spectral.preprocess.window_slopes` for overlapping
+        windows; used for ``detrend="linear"`` instead of computing them here.
+    peak_from : int
+        Lowest harmonic searched for ``peak_harmonic`` (1 by default; along-track windows
+        leave out k = 1, which a detrend and any regional field confuse).
+
+    Returns
+    -------
+    DetrendedHarmonics
+    """
+    check_option(detrend, Detrend, what="detrend")
+    array = as_values(values, min_length=_MIN_SAMPLES, batched=True, finite=False)
+    count = array.shape[-1]
+    if isinstance(peak_from, bool) or not isinstance(peak_from, int | np.integer) \
+            or not 1 <= peak_from <= (count - 1) // 2:
+        raise InputError(f"peak_from: {peak_from!r} must be a harmonic 1..{(count - 1) // 2}")
+    if slope is not None:
+        slope = np.asarray(slope, dtype=np.float64)
+        if detrend != "linear" or slope.shape != array.shape[:-1]:
+            raise InputError(
+                f"slope: {slope.shape} slopes given for series of shape {array.shape[:-1]} "
+                f"(detrend {detrend!r}); give one per series, for detrend='linear' only"
+            )
+    variances, mean, slope, sums = _untapered_variances(array, detrend, slope, peak_from=int(peak_from))
+    half = 0.5 * (count - 1) * slope
+    return DetrendedHarmonics(
+        variance=variances,
+        mean=np.asarray(mean),
+        slope=np.asarray(slope),
+        first=np.asarray(array[..., 0] - mean + half),
+        last=np.asarray(array[..., -1] - mean - half),
+        total_variance=sums[0],
+        circular_lag1=sums[1],
+        peak_harmonic=sums[2],
+        peak_from=int(peak_from),
+        n=int(count),
+        detrend=str(detrend),
+    )
 
 
 @dataclass(frozen=True)

@@ -161,7 +161,59 @@ def line_slope(values: np.ndarray) -> np.ndarray:
     ``mean + slope * c_j`` (ordinary least squares against the sample index).
     """
     centred = _centred_index(values.shape[-1])
-    return (values @ centred) / float(centred @ centred)
+    # A strided view (e.g. overlapping windows) is read in place by einsum; matmul would
+    # first copy it, but is the faster of the two on contiguous arrays.
+    contiguous = values.flags.c_contiguous
+    weighted = values @ centred if contiguous else np.einsum("...j,j->...", values, centred)
+    return weighted / float(centred @ centred)
+
+
+def window_slopes(values: np.ndarray, *, length: int, step: int) -> np.ndarray:
+    """:func:`line_slope` of every window ``values[i step : i step + length]``, in O(N).
+
+    The windows are those of ``sliding_window_view(values, length)[::step]``. With
+    g = gcd(length, step), every window is made of whole blocks of g samples, so the sums
+    sum_j c_j y_j of all windows come from two sums per block, S0_b = sum_t y_bt and
+    S1_b = sum_t (t - (g - 1)/2) y_bt:
+
+        sum_j c_j y_j = sum_q [S1_(b+q) + (q g + (g - 1)/2 - (length - 1)/2) S0_(b+q)],
+
+    q = 0..length/g - 1 (the block's centre measured from the window's centre). Each
+    sample is read once, however much the windows overlap; the rounding is that of the
+    direct sums (no running totals, whose differences would cancel).
+
+    Parameters
+    ----------
+    values : ndarray, shape (N,)
+        Checked float samples.
+    length, step : int
+        Window length and the step between window starts, samples (length >= 2).
+
+    Returns
+    -------
+    ndarray, shape ((N - length) // step + 1,)
+        Slopes in field units per sample.
+    """
+    from math import gcd
+
+    from numpy.lib.stride_tricks import sliding_window_view
+
+    length, step = int(length), int(step)
+    if length < 2 or step < 1 or values.shape[-1] < length:
+        raise InputError(f"windows of {length} samples every {step} do not fit {values.shape[-1]} samples")
+    count = (values.shape[-1] - length) // step + 1
+    block = gcd(length, step)
+    span = (count - 1) * step + length
+    blocks = values[:span].reshape(-1, block)
+    within = np.arange(block) - (block - 1) / 2.0
+    zeroth = blocks.sum(axis=1)
+    first = np.einsum("ij,j->i", blocks, within)
+    per, hop = length // block, step // block
+    offsets = np.arange(per) * block + (block - 1) / 2.0 - (length - 1) / 2.0
+    weighted = sliding_window_view(first, per)[::hop].sum(axis=1)
+    weighted += np.einsum("ij,j->i", sliding_window_view(zeroth, per)[::hop], offsets)
+    centred = _centred_index(length)
+    return weighted / float(centred @ centred)
 
 
 def remove_trend(

@@ -33,6 +33,7 @@ from .preprocess import (
     Detrend,
     Taper,
     as_values,
+    check_option,
     check_probability,
     check_spacing,
     remove_trend,
@@ -435,6 +436,20 @@ def _blocks_fit(count: int, length: int, overlap: float) -> int:
     return 1 + (count - length) // shift if count >= length else 0
 
 
+def _too_few_blocks(count: int, length: int, overlap: float, dx: float, wanted: int) -> str:
+    """The refusal of :func:`welch_coefficients`, naming the longest block that fits."""
+    times = {1: "once", 2: "twice"}.get(wanted, f"{wanted} times")
+    longest = int(count / (1.0 + (wanted - 1) * (1.0 - overlap))) + 2
+    while longest > 4 and _blocks_fit(count, longest, overlap) < wanted:
+        longest -= 1
+    return (
+        f"segment_length: blocks of {length * dx / 1000.0:g} km do not fit {times} in the "
+        f"{count * dx / 1000.0:g} km record at {overlap:.0%} overlap; the longest block that "
+        f"does, and so the longest wavelength resolved here, is {longest * dx / 1000.0:.4g} km "
+        f"(use segment_length <= {longest * dx:.0f} m, or the multitaper estimate)"
+    )
+
+
 def welch_coefficients(
     values: object,
     *,
@@ -443,6 +458,7 @@ def welch_coefficients(
     overlap: float = 0.5,
     taper: Taper = "hann",
     detrend: Detrend = "linear",
+    min_blocks: int = 2,
 ) -> WelchCoefficients:
     """Tapered Fourier coefficients of overlapping blocks (Welch 1967).
 
@@ -463,6 +479,10 @@ def welch_coefficients(
         Window from :mod:`scipy.signal.windows` (periodic form); Hann by default.
     detrend : {"linear", "mean"}
         Removed from every block before tapering (as ``scipy.signal.welch`` does).
+    min_blocks : int
+        Fewest blocks accepted (default 2, the fewest that make an average). A cross-spectrum
+        that pools the blocks of several segments passes 1, or 0 to get an empty stack
+        (shape (0, L//2 + 1), dof 0) from a segment shorter than one block.
 
     Returns
     -------
@@ -471,13 +491,15 @@ def welch_coefficients(
     Raises
     ------
     SpacingError
-        If fewer than two blocks fit; the message gives the longest block, and so the
-        longest wavelength, that two blocks allow.
+        If fewer than ``min_blocks`` blocks fit; the message gives the longest block, and so
+        the longest wavelength, that ``min_blocks`` blocks allow.
     """
     from numpy.lib.stride_tricks import sliding_window_view
 
+    if isinstance(min_blocks, bool) or not isinstance(min_blocks, int | np.integer) or min_blocks < 0:
+        raise InputError(f"min_blocks: {min_blocks!r} must be a whole number >= 0")
     dx = check_spacing(spacing)
-    array = as_values(values, min_length=8)
+    array = as_values(values, min_length=max(1, 4 * int(min_blocks)))
     count = array.size
     try:
         overlap = float(overlap)
@@ -495,25 +517,21 @@ def welch_coefficients(
             f"a block needs at least 4 samples ({4 * dx:g} m)"
         )
     n_segments = _blocks_fit(count, length, overlap)
-    if n_segments < 2:
-        longest = int(count / (2.0 - overlap)) + 2
-        while longest > 4 and _blocks_fit(count, longest, overlap) < 2:
-            longest -= 1
-        raise SpacingError(
-            f"segment_length: blocks of {length * dx / 1000.0:g} km do not fit twice in the "
-            f"{count * dx / 1000.0:g} km record at {overlap:.0%} overlap; the longest "
-            f"wavelength two blocks resolve here is {longest * dx / 1000.0:.4g} km "
-            f"(use segment_length <= {longest * dx:.0f} m, or the multitaper estimate)"
-        )
+    if n_segments < min_blocks:
+        raise SpacingError(_too_few_blocks(count, length, overlap, dx, int(min_blocks)))
     shift = _shift(length, overlap)
     weights = taper_weights(taper, length)
     if weights is None:
         weights = np.ones(length)
-    blocks = sliding_window_view(array, length)[::shift][:n_segments]
-    residual, _, _ = remove_trend(blocks, detrend)
-    residual *= weights
-    coefficients = np.fft.rfft(residual, axis=-1)
-    coefficients *= np.sqrt(dx / np.sum(weights**2))
+    if n_segments:
+        blocks = sliding_window_view(array, length)[::shift][:n_segments]
+        residual, _, _ = remove_trend(blocks, detrend)
+        residual *= weights
+        coefficients = np.fft.rfft(residual, axis=-1)
+        coefficients *= np.sqrt(dx / np.sum(weights**2))
+    else:
+        check_option(detrend, Detrend, what="detrend")
+        coefficients = np.empty((0, length // 2 + 1), dtype=np.complex128)
     nu = welch_dof(weights, shift=shift, n_segments=n_segments)
     return WelchCoefficients(
         coefficients=coefficients,
@@ -598,22 +616,26 @@ class MultitaperCoefficients:
 
     Attributes
     ----------
-    coefficients : ndarray of complex, shape (K, N//2 + 1)
-        C_k(f) = sqrt(dx) * rfft(h_k * y) with h_k the k-th DPSS taper of unit energy and y
-        the detrended series: |C_k|^2 is the k-th two-sided eigenspectrum (density per
-        cycle/m), and conj(C_k,x) C_k,y the k-th cross eigenspectrum.
+    coefficients : ndarray of complex, shape (K, M//2 + 1)
+        C_k(f) = sqrt(dx) * rfft(h_k * y, M) with h_k the k-th DPSS taper of unit energy, y
+        the detrended series and M = ``n_fft`` (N unless zero-padded): |C_k|^2 is the k-th
+        two-sided eigenspectrum (density per cycle/m), and conj(C_k,x) C_k,y the k-th cross
+        eigenspectrum.
     eigenvalues : ndarray, shape (K,)
         Concentration lambda_k of taper k in the band |f| <= W (Slepian 1978).
     tapers : ndarray, shape (K, N)
         The tapers h_k (scipy.signal.windows.dpss, symmetric, unit energy).
     onesided : ndarray
-        2, except 1 at k = 0 and the Nyquist bin of even N.
+        2, except 1 at k = 0 and the Nyquist bin of even M.
     wavenumber : ndarray
-        Cycles per metre, ``rfftfreq(N, dx)``.
+        Cycles per metre, ``rfftfreq(M, dx)``.
     spacing : float
         dx, metres.
     n : int
         Samples N.
+    n_fft : int
+        Length M of the transform, M >= N (zero padding only interpolates the grid; it
+        does not improve the resolution 2W).
     nw : float
         Time-bandwidth product NW.
     half_bandwidth : float
@@ -632,6 +654,7 @@ class MultitaperCoefficients:
     wavenumber: np.ndarray = field(repr=False)
     spacing: float
     n: int
+    n_fft: int
     nw: float
     half_bandwidth: float
     variance: float
@@ -650,6 +673,7 @@ def multitaper_coefficients(
     nw: float = 4.0,
     n_tapers: int | None = None,
     detrend: Detrend = "linear",
+    n_fft: int | None = None,
 ) -> MultitaperCoefficients:
     """DPSS eigencoefficients of one segment (Thomson 1982; tapers of Slepian 1978).
 
@@ -667,6 +691,10 @@ def multitaper_coefficients(
         whose concentration is close to 1.
     detrend : {"linear", "mean"}
         Removed before tapering.
+    n_fft : int, optional
+        Transform length M >= N: the tapered series is zero-padded to M samples, so that
+        segments of different lengths share one wavenumber grid (cross-spectra of several
+        segments). Default N.
 
     Returns
     -------
@@ -689,18 +717,23 @@ def multitaper_coefficients(
         raise InputError(f"n_tapers: {n_tapers!r} must be a whole number")
     if not 1 <= n_tapers <= count:
         raise InputError(f"n_tapers: {n_tapers} must lie between 1 and N = {count}")
+    length = count if n_fft is None else n_fft
+    if isinstance(length, bool) or not isinstance(length, int | np.integer) or length < count:
+        raise InputError(f"n_fft: {n_fft!r} must be a whole number >= N = {count}")
+    length = int(length)
     tapers, eigenvalues = dpss(count, nw, int(n_tapers), sym=True, norm=2, return_ratios=True)
     residual, _, _ = remove_trend(array, detrend)
-    coefficients = np.fft.rfft(tapers * residual, axis=-1)
+    coefficients = np.fft.rfft(tapers * residual, n=length, axis=-1)
     coefficients *= np.sqrt(dx)
     return MultitaperCoefficients(
         coefficients=coefficients,
         eigenvalues=np.asarray(eigenvalues, dtype=np.float64),
         tapers=tapers,
-        onesided=_onesided(count),
-        wavenumber=np.fft.rfftfreq(count, d=dx),
+        onesided=_onesided(length),
+        wavenumber=np.fft.rfftfreq(length, d=dx),
         spacing=dx,
         n=count,
+        n_fft=length,
         nw=nw,
         half_bandwidth=nw / (count * dx),
         variance=float(np.mean(residual**2)),
@@ -789,7 +822,7 @@ def multitaper_psd(
     dof = 2.0 * total**2 / (weights**2).sum(axis=0)
     return _finish(
         psd,
-        _bin_dof(dof, eigen.n),
+        _bin_dof(dof, eigen.n_fft),
         confidence,
         wavenumber=eigen.wavenumber,
         method="multitaper",

@@ -30,7 +30,7 @@ from typing import Literal
 import numpy as np
 
 from ..errors import InputError
-from .harmonics import harmonic_variances
+from .harmonics import DetrendedHarmonics, detrended_harmonics, harmonic_variances
 from .preprocess import (
     Detrend,
     as_values,
@@ -52,6 +52,8 @@ __all__ = [
     "fisher_p_value",
     "fisher_test",
     "lag1_autocorrelation",
+    "lag1_from_harmonics",
+    "red_noise_at",
     "red_noise_from_variances",
     "red_noise_test",
 ]
@@ -331,6 +333,19 @@ class FisherTest:
         )
 
 
+def _checked_variances(variances: object, *, n: int, spacing: float, alpha: float):
+    """Harmonic variances as floats with their N, spacing and level, checked together."""
+    dx = check_spacing(spacing)
+    alpha = check_probability(alpha, what="alpha")
+    array = np.asarray(variances, dtype=np.float64)
+    n = int(n)
+    if array.shape[-1] != n // 2 + 1:
+        raise InputError(
+            f"variances: last axis has {array.shape[-1]} entries; {n} samples give {n // 2 + 1}"
+        )
+    return array, n, dx, alpha
+
+
 def _scalar_or_array(array: np.ndarray):
     return array.item() if array.ndim == 0 else array
 
@@ -355,14 +370,7 @@ def fisher_from_variances(
     -------
     FisherTest
     """
-    dx = check_spacing(spacing)
-    alpha = check_probability(alpha, what="alpha")
-    array = np.asarray(variances, dtype=np.float64)
-    n = int(n)
-    if array.shape[-1] != n // 2 + 1:
-        raise InputError(
-            f"variances: last axis has {array.shape[-1]} entries; {n} samples give {n // 2 + 1}"
-        )
+    array, n, dx, alpha = _checked_variances(variances, n=n, spacing=spacing, alpha=alpha)
     m = _check_m(fisher_m(n))
     tested = array[..., 1 : m + 1]
     total = tested.sum(axis=-1)
@@ -425,6 +433,17 @@ def fisher_test(
 # --------------------------------------------------------------------------------------------
 
 
+def _lag1_ratio(
+    numerator: np.ndarray, denominator: np.ndarray, *, n: int, estimator: str
+) -> np.ndarray | float:
+    """r = numerator / denominator (0 for a flat series), bias-corrected if asked, clipped."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r = np.where(denominator > 0, numerator / np.where(denominator > 0, denominator, 1), 0.0)
+    if estimator == "corrected":
+        r = (n * r + 1.0) / (n - 3.0)
+    return _scalar_or_array(np.clip(r, -_LAG1_LIMIT, _LAG1_LIMIT))
+
+
 def lag1_autocorrelation(
     values: object, *, detrend: Detrend = "linear", estimator: Lag1Estimator = "sample"
 ) -> np.ndarray | float:
@@ -434,22 +453,104 @@ def lag1_autocorrelation(
     removing the mean or line (the usual sample autocorrelation; Box and Jenkins 1976,
     from memory). ``estimator="corrected"`` returns (N r + 1)/(N - 3), removing the
     first-order bias E[r] ~ rho - (1 + 3 rho)/N of the sample estimate (Marriott and Pope
-    1954, from memory). Vectorised along the last axis.
+    1954, from memory). Vectorised along the last axis. This is the definition, summed in
+    the sample domain; :func:`lag1_from_harmonics` gives the same number from harmonic
+    variances already computed.
     """
     check_option(estimator, Lag1Estimator, what="lag1 estimator")
     array = as_values(values, min_length=5, batched=True)
     residual, _, _ = remove_trend(array, detrend)
     numerator = np.einsum("...j,...j->...", residual[..., :-1], residual[..., 1:])
     denominator = np.einsum("...j,...j->...", residual, residual)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r = np.where(denominator > 0, numerator / np.where(denominator > 0, denominator, 1), 0.0)
-    if estimator == "corrected":
-        count = array.shape[-1]
-        r = (count * r + 1.0) / (count - 3.0)
-    return _scalar_or_array(np.clip(r, -_LAG1_LIMIT, _LAG1_LIMIT))
+    return _lag1_ratio(numerator, denominator, n=array.shape[-1], estimator=estimator)
 
 
-def ar1_background(lag1: object, *, n: int, variance: object) -> np.ndarray:
+def lag1_from_harmonics(
+    harmonics: DetrendedHarmonics, *, estimator: Lag1Estimator = "sample"
+) -> np.ndarray | float:
+    """Lag-1 autocorrelation of detrended series from their harmonic decomposition.
+
+    The number of :func:`lag1_autocorrelation`, without going back to the samples. For the
+    DFT R of a residual r of N samples, the circular lag-1 sum is
+    sum_j r_j r_{(j+1) mod N} = (1/N) sum_{k=0}^{N-1} |R_k|^2 cos(2 pi k/N) (the
+    Wiener-Khinchin relation of the DFT; common practice), which in the harmonic variances
+    s_k^2 of :func:`profiles.spectral.harmonic_variances` (conjugate pairs folded in) is
+    (N - 1) sum_{k>=1} s_k^2 cos(2 pi k/N); Parseval gives sum_j r_j^2 = (N - 1) sum_{k>=1}
+    s_k^2. The ordinary lag-1 sum lacks the wrap-around product r_{N-1} r_0, so
+
+        r = (sum_{k>=1} s_k^2 cos(2 pi k/N) - r_0 r_{N-1} / (N - 1)) / sum_{k>=1} s_k^2,
+
+    then bias-corrected as in :func:`lag1_autocorrelation` if asked. The two sums and the
+    end values come with :func:`profiles.spectral.harmonics.detrended_harmonics`, so for many
+    series (along-track windows) this costs a few operations per series.
+
+    Parameters
+    ----------
+    harmonics : DetrendedHarmonics
+        Of series of N >= 5 samples.
+    estimator : {"sample", "corrected"}
+        As in :func:`lag1_autocorrelation`.
+    """
+    check_option(estimator, Lag1Estimator, what="lag1 estimator")
+    n = int(harmonics.n)
+    ends = np.asarray(harmonics.first) * np.asarray(harmonics.last)
+    numerator = np.asarray(harmonics.circular_lag1) - ends / (n - 1)
+    return _lag1_ratio(numerator, np.asarray(harmonics.total_variance), n=n, estimator=estimator)
+
+
+def _ar1_shape(r: np.ndarray, harmonic: np.ndarray, n: int) -> np.ndarray:
+    """P_k = (1 - r^2) / (1 + r^2 - 2 r cos(2 pi k / N)).
+
+    The denominator is written as (1 - r)^2 + 4 r sin^2(pi k/N) for r >= 0 and as
+    (1 + r)^2 + 4 |r| cos^2(pi k/N) for r < 0: sums of positive terms, which keep their
+    digits where 1 + r^2 and 2 r cos(2 pi k/N) nearly cancel (|r| -> 1 near k = 0 or N/2).
+    """
+    half = np.pi * harmonic / n
+    below = np.where(r >= 0, (1.0 - r) ** 2 + 4.0 * r * np.sin(half) ** 2,
+                     (1.0 + r) ** 2 - 4.0 * r * np.cos(half) ** 2)
+    return (1.0 - r) * (1.0 + r) / below
+
+
+#: Up to this N the AR(1) normaliser is summed harmonic by harmonic (see ``_ar1_sum``).
+_AR1_SUMMED_UP_TO = 128
+
+
+def _ar1_sum(r: np.ndarray, n: int) -> np.ndarray:
+    """sum_{k>=1} d_k P_k over k = 1..N//2 (d = 1/2 at the Nyquist harmonic of even N).
+
+    By the symmetry P_k = P_{N-k} this is half the sum over k = 1..N-1, and the sum of the
+    AR(1) spectrum over a whole period of the DFT (a Poisson kernel) is
+    N (1 + r^N) / (1 - r^N) (common practice), so the sum is
+    (N (1 + r^N) / (1 - r^N) - (1 + r) / (1 - r)) / 2: no harmonic-by-harmonic sum. 1 - r^N
+    is formed as -expm1(N log|r|) (or 1 + |r|^N for negative r and odd N) to keep its
+    digits as |r| -> 1. The subtraction cancels where the k = 0 term (1 + r)/(1 - r) dwarfs
+    the sum, i.e. r near 1 and N(1 - r) small; for N <= ``_AR1_SUMMED_UP_TO`` the sum is
+    therefore taken term by term (cheap there), and above it, for |r| <= 0.999, the closed
+    form keeps about 1e-12 (checked against mpmath in the tests).
+    """
+    r = np.asarray(r, dtype=np.float64)
+    if n <= _AR1_SUMMED_UP_TO:
+        k = np.arange(1, n // 2 + 1)
+        weight = np.where(2 * k == n, 0.5, 1.0)
+        return (weight * _ar1_shape(r[..., np.newaxis], k, n)).sum(axis=-1)
+    size = np.abs(r)
+    with np.errstate(divide="ignore"):
+        power = np.expm1(n * np.log(size))  # |r|^N - 1
+    complement = np.where((r < 0) & (n % 2 == 1), 2.0 + power, -power)  # 1 - r^N
+    complement = np.where(size == 0, 1.0, complement)
+    return 0.5 * (n * (2.0 - complement) / complement - (1.0 + r) / (1.0 - r))
+
+
+def _harmonics_checked(harmonic: object, n: int) -> np.ndarray:
+    k = np.asarray(harmonic)
+    if not np.issubdtype(k.dtype, np.integer) or np.any((k < 0) | (k > n // 2)):
+        raise InputError(f"harmonic: harmonic numbers must be whole numbers 0..{n // 2} for N = {n}")
+    return k
+
+
+def ar1_background(
+    lag1: object, *, n: int, variance: object, harmonic: object = None
+) -> np.ndarray:
     """Expected variance of each harmonic for AR(1) noise with the observed total variance.
 
     B_k = V d_k P_k / sum_{j>=1} d_j P_j for k = 1..N//2, with
@@ -457,7 +558,8 @@ def ar1_background(lag1: object, *, n: int, variance: object) -> np.ndarray:
     Torrence and Compo 1998, eq. 16, from memory), d_k = 1, and d = 1/2 at the Nyquist
     harmonic of even N (one degree of freedom there). The background therefore adds up to V,
     the total variance of the harmonics k >= 1; for r = 0 it is V * 2/(N - 1) per harmonic.
-    Entry k = 0 is 0.
+    Entry k = 0 is 0. The normaliser has a closed form (see ``_ar1_sum``), so the background
+    at a few chosen harmonics costs no more than at one.
 
     Parameters
     ----------
@@ -467,22 +569,78 @@ def ar1_background(lag1: object, *, n: int, variance: object) -> np.ndarray:
         Samples per series.
     variance : float or array_like, shape (...)
         Total variance V of the harmonics k >= 1 (field units squared).
+    harmonic : int or array_like of int, optional
+        Harmonic numbers 0..N//2 at which to evaluate B_k, broadcast against ``lag1`` and
+        ``variance`` (e.g. one per series). Default: every harmonic, on a new last axis.
 
     Returns
     -------
-    ndarray, shape (..., N//2 + 1)
+    ndarray
+        Shape (..., N//2 + 1) for every harmonic, else the broadcast shape.
     """
-    r = np.clip(np.asarray(lag1, dtype=np.float64), -_LAG1_LIMIT, _LAG1_LIMIT)[..., np.newaxis]
     n = int(n)
-    harmonic = np.arange(n // 2 + 1)
-    shape = (1.0 - r**2) / (1.0 + r**2 - 2.0 * r * np.cos(2.0 * np.pi * harmonic / n))
-    weight = np.ones(harmonic.shape)
-    weight[0] = 0.0
-    if n % 2 == 0:
-        weight[-1] = 0.5
-    shape = shape * weight
-    total = np.asarray(variance, dtype=np.float64)[..., np.newaxis]
-    return total * shape / shape.sum(axis=-1, keepdims=True)
+    r = np.clip(np.asarray(lag1, dtype=np.float64), -_LAG1_LIMIT, _LAG1_LIMIT)
+    total = np.asarray(variance, dtype=np.float64)
+    if harmonic is None:
+        k = np.arange(n // 2 + 1)
+        r, total = r[..., np.newaxis], total[..., np.newaxis]
+    else:
+        k = _harmonics_checked(harmonic, n)
+    weight = np.where(k == 0, 0.0, np.where(2 * k == n, 0.5, 1.0))
+    return total * weight * _ar1_shape(r, k, n) / _ar1_sum(r, n)
+
+
+def _threshold(background: np.ndarray, harmonic: np.ndarray, *, n: int, alpha: float) -> np.ndarray:
+    """background * chi2_nu(1 - alpha) / nu, nu = 2 (1 at the Nyquist harmonic of even N);
+    ``inf`` at k = 0, which is never tested."""
+    from scipy.stats import chi2
+
+    # Two quantiles, not one per entry: scipy's quantile costs about a microsecond each.
+    interior, nyquist = chi2.ppf(1.0 - alpha, [2.0, 1.0]) / [2.0, 1.0]
+    factor = np.where(2 * harmonic == n, nyquist, interior)
+    return np.where(harmonic == 0, np.inf, background * factor)
+
+
+def red_noise_at(
+    variance: object,
+    *,
+    harmonic: object,
+    total: object,
+    lag1: object,
+    n: int,
+    alpha: float = 0.05,
+) -> np.ndarray:
+    """The red-noise test of :func:`red_noise_from_variances` at chosen harmonics only.
+
+    variance > B_k chi2_nu(1 - alpha) / nu with the AR(1) background B_k of
+    :func:`ar1_background` (nu = 2, 1 at the Nyquist harmonic of even N), for the harmonic
+    ``harmonic`` of each series: e.g. the dominant harmonic of every along-track window,
+    without building the background of every harmonic of every window.
+
+    Parameters
+    ----------
+    variance : array_like, shape (...)
+        Observed variance of the harmonic tested, field units squared.
+    harmonic : int or array_like of int, shape (...)
+        Its harmonic number, 0..N//2 (k = 0 is never significant).
+    total : array_like, shape (...)
+        Total variance of the harmonics k >= 1 of each series.
+    lag1 : array_like, shape (...)
+        AR(1) coefficient of each series.
+    n : int
+        Samples per series.
+    alpha : float
+        Level of the test (default 0.05).
+
+    Returns
+    -------
+    ndarray of bool
+    """
+    alpha = check_probability(alpha, what="alpha")
+    n = int(n)
+    k = _harmonics_checked(harmonic, n)
+    background = ar1_background(lag1, n=n, variance=total, harmonic=k)
+    return np.asarray(variance, dtype=np.float64) > _threshold(background, k, n=n, alpha=alpha)
 
 
 @dataclass(frozen=True)
@@ -622,23 +780,10 @@ def red_noise_from_variances(
     -------
     RedNoiseTest
     """
-    from scipy.stats import chi2
-
-    dx = check_spacing(spacing)
-    alpha = check_probability(alpha, what="alpha")
-    array = np.asarray(variances, dtype=np.float64)
-    n = int(n)
-    if array.shape[-1] != n // 2 + 1:
-        raise InputError(
-            f"variances: last axis has {array.shape[-1]} entries; {n} samples give {n // 2 + 1}"
-        )
+    array, n, dx, alpha = _checked_variances(variances, n=n, spacing=spacing, alpha=alpha)
     total = array[..., 1:].sum(axis=-1)
     background = ar1_background(lag1, n=n, variance=total)
-    dof = np.full(n // 2 + 1, 2.0)
-    if n % 2 == 0:
-        dof[-1] = 1.0
-    threshold = background * (chi2.ppf(1.0 - alpha, dof) / dof)
-    threshold[..., 0] = np.inf
+    threshold = _threshold(background, np.arange(n // 2 + 1), n=n, alpha=alpha)
     significant = array > threshold
     return RedNoiseTest(
         lag1=_scalar_or_array(np.clip(np.asarray(lag1, dtype=np.float64), -1.0, 1.0)),
@@ -664,8 +809,9 @@ def red_noise_test(
 ) -> RedNoiseTest:
     """Test every harmonic against an AR(1) red-noise background.
 
-    The lag-1 coefficient is estimated from the detrended series
-    (:func:`lag1_autocorrelation`), the background spectrum of AR(1) noise with that
+    The lag-1 coefficient is estimated from the detrended series (the number of
+    :func:`lag1_autocorrelation`, computed by :func:`lag1_from_harmonics` from the same
+    transform as the harmonic variances), the background spectrum of AR(1) noise with that
     coefficient is scaled to the observed total variance (:func:`ar1_background`), and
     harmonic k is flagged where its variance exceeds background_k * chi2_2(1 - alpha)/2
     (chi2_1(1 - alpha) at the Nyquist harmonic of even N): the test of Gilman, Fuglister
@@ -691,10 +837,10 @@ def red_noise_test(
     RedNoiseTest
     """
     array = as_values(values, min_length=5, batched=True)
-    variances = harmonic_variances(array, detrend=detrend)
-    lag1 = lag1_autocorrelation(array, detrend=detrend, estimator=lag1_estimator)
+    harmonics = detrended_harmonics(array, detrend=detrend)
+    lag1 = lag1_from_harmonics(harmonics, estimator=lag1_estimator)
     return red_noise_from_variances(
-        variances,
+        harmonics.variance,
         n=array.shape[-1],
         lag1=lag1,
         spacing=spacing,

@@ -60,22 +60,12 @@ class SlopeFit:
         ``n_bins``, ``band_rule``."""
         import pandas as pd
 
-        return pd.DataFrame(
-            {
-                "beta": [self.beta],
-                "beta_err": [self.beta_err],
-                "band_min_per_km": [self.band_min * 1000.0],
-                "band_max_per_km": [self.band_max * 1000.0],
-                "n_bins": [self.n_bins],
-                "band_rule": [self.band_rule],
-            }
-        )
+        return pd.DataFrame({"beta": [self.beta], "beta_err": [self.beta_err], **_band_columns(self)})
 
     def __str__(self) -> str:
         return (
             f"Power-law fit: beta = {self.beta:.3f} +/- {self.beta_err:.3f} over "
-            f"{self.band_min * 1000.0:.4g} to {self.band_max * 1000.0:.4g} cycles/km "
-            f"({self.n_bins} bins, {self.band_rule} band)"
+            f"{_band_text(self)}"
         )
 
 
@@ -116,22 +106,32 @@ class DepthFit:
         import pandas as pd
 
         return pd.DataFrame(
-            {
-                "depth_km": [self.depth / 1000.0],
-                "depth_err_km": [self.depth_err / 1000.0],
-                "band_min_per_km": [self.band_min * 1000.0],
-                "band_max_per_km": [self.band_max * 1000.0],
-                "n_bins": [self.n_bins],
-                "band_rule": [self.band_rule],
-            }
+            {"depth_km": [self.depth / 1000.0], "depth_err_km": [self.depth_err / 1000.0],
+             **_band_columns(self)}
         )
 
     def __str__(self) -> str:
         return (
             f"Depth to source: {self.depth / 1000.0:.4g} +/- {self.depth_err / 1000.0:.2g} km "
-            f"from ln P over {self.band_min * 1000.0:.4g} to {self.band_max * 1000.0:.4g} "
-            f"cycles/km ({self.n_bins} bins, {self.band_rule} band)"
+            f"from ln P over {_band_text(self)}"
         )
+
+
+def _band_columns(fit: SlopeFit | DepthFit) -> dict[str, list]:
+    """The band columns both fits share in ``to_frame`` (per km)."""
+    return {
+        "band_min_per_km": [fit.band_min * 1000.0],
+        "band_max_per_km": [fit.band_max * 1000.0],
+        "n_bins": [fit.n_bins],
+        "band_rule": [fit.band_rule],
+    }
+
+
+def _band_text(fit: SlopeFit | DepthFit) -> str:
+    return (
+        f"{fit.band_min * 1000.0:.4g} to {fit.band_max * 1000.0:.4g} cycles/km "
+        f"({fit.n_bins} bins, {fit.band_rule} band)"
+    )
 
 
 def _usable(wavenumber: object, psd: object) -> tuple[np.ndarray, np.ndarray]:
@@ -183,6 +183,21 @@ def _band_indices(k: np.ndarray, power: np.ndarray, band) -> tuple[np.ndarray, s
     return chosen, rule
 
 
+def _band_line(wavenumber: object, psd: object, band, *, abscissa, ordinate):
+    """Least-squares line of ``ordinate(P)`` against ``abscissa(k)`` over the band's bins:
+    slope, its error, intercept and the band fields of the result."""
+    k, power = _usable(wavenumber, psd)
+    chosen, rule = _band_indices(k, power, band)
+    slope, error, intercept = _line(abscissa(k[chosen]), ordinate(power[chosen]))
+    fields = {
+        "band_min": float(k[chosen[0]]),
+        "band_max": float(k[chosen[-1]]),
+        "n_bins": int(chosen.size),
+        "band_rule": rule,
+    }
+    return slope, error, intercept, fields
+
+
 def _line(x: np.ndarray, y: np.ndarray) -> tuple[float, float, float]:
     """Least-squares slope, its standard error and the intercept."""
     x_mean, y_mean = x.mean(), y.mean()
@@ -229,18 +244,10 @@ def power_law_fit(
     independent bins, which holds for periodogram and Welch bins but not for neighbouring
     multitaper bins (within 2W), where it is too small.
     """
-    k, power = _usable(wavenumber, psd)
-    chosen, rule = _band_indices(k, power, band)
-    slope, error, intercept = _line(np.log10(k[chosen]), np.log10(power[chosen]))
-    return SlopeFit(
-        beta=-slope,
-        beta_err=error,
-        intercept=intercept,
-        band_min=float(k[chosen[0]]),
-        band_max=float(k[chosen[-1]]),
-        n_bins=int(chosen.size),
-        band_rule=rule,
+    slope, error, intercept, fields = _band_line(
+        wavenumber, psd, band, abscissa=np.log10, ordinate=np.log10
     )
+    return SlopeFit(beta=-slope, beta_err=error, intercept=intercept, **fields)
 
 
 def source_depth(
@@ -274,16 +281,8 @@ def source_depth(
     depth (about 12 % over k h = 0.2..4; see docs/methods-spectral.md). Source thickness and
     fractal source distributions bias the low-wavenumber slope as well.
     """
-    k, power = _usable(wavenumber, psd)
-    chosen, rule = _band_indices(k, power, band)
-    slope, error, intercept = _line(2.0 * np.pi * k[chosen], np.log(power[chosen]))
-    return DepthFit(
-        depth=-slope / 2.0,
-        depth_err=error / 2.0,
-        slope=slope,
-        intercept=intercept,
-        band_min=float(k[chosen[0]]),
-        band_max=float(k[chosen[-1]]),
-        n_bins=int(chosen.size),
-        band_rule=rule,
+    slope, error, intercept, fields = _band_line(
+        wavenumber, psd, band, abscissa=lambda k: 2.0 * np.pi * k, ordinate=np.log
     )
+    return DepthFit(depth=-slope / 2.0, depth_err=error / 2.0, slope=slope, intercept=intercept,
+                    **fields)

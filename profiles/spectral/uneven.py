@@ -10,6 +10,10 @@ Two normalisations are returned, computed once:
 - ``power``: astropy's ``"standard"`` normalisation, the fraction of the variance
   sum (y - mean)^2 that a sinusoid at that wavenumber explains (0..1); false-alarm
   probabilities are always computed from it, whatever the caller shows.
+- ``false_alarm``: at every wavenumber, the probability that noise alone gives a peak at
+  least as high as the power there anywhere in the searched band (astropy's
+  ``false_alarm_probability`` evaluated at every power of the grid in one call; for the
+  bootstrap method the resampled maxima are drawn once and shared by the whole grid).
 - ``psd``: a one-sided density in field units squared per (cycle/m),
   psd = power * sum((y - mean)^2) * dx_mean, with dx_mean = (x_max - x_min)/(N - 1). For
   evenly spaced data at the Fourier wavenumbers this equals the boxcar periodogram density
@@ -21,6 +25,7 @@ Two normalisations are returned, computed once:
 
 from __future__ import annotations
 
+import math
 import warnings
 from dataclasses import dataclass, field
 from typing import Literal
@@ -71,6 +76,10 @@ class LombScargleSpectrum:
         at each wavenumber, 0..1.
     psd : ndarray
         One-sided density, field units squared per (cycle/m) (see the module notes).
+    false_alarm : ndarray
+        Per wavenumber: the probability that noise alone gives a peak at least as high as
+        ``power`` there anywhere in the searched band, by ``fap_method``. It falls as the
+        power rises; its value at the peak is ``false_alarm_probability``.
     peak_wavenumber : float
         Wavenumber of the largest ``power``, cycles per metre.
     peak_power : float
@@ -101,6 +110,7 @@ class LombScargleSpectrum:
     wavenumber: np.ndarray = field(repr=False)
     power: np.ndarray = field(repr=False)
     psd: np.ndarray = field(repr=False)
+    false_alarm: np.ndarray = field(repr=False)
     peak_wavenumber: float
     peak_power: float
     false_alarm_probability: float
@@ -120,8 +130,8 @@ class LombScargleSpectrum:
 
     def to_frame(self):
         """One row per wavenumber: ``wavenumber_per_km``, ``wavelength_km``, ``power``
-        (fraction of variance) and ``psd_per_cycle_per_km`` (field units squared per
-        cycle/km)."""
+        (fraction of variance), ``psd_per_cycle_per_km`` (field units squared per cycle/km)
+        and ``false_alarm``."""
         import pandas as pd
 
         return pd.DataFrame(
@@ -130,8 +140,30 @@ class LombScargleSpectrum:
                 "wavelength_km": self.wavelength / 1000.0,
                 "power": self.power,
                 "psd_per_cycle_per_km": self.psd / 1000.0,
+                "false_alarm": self.false_alarm,
             }
         )
+
+    def records(self) -> list[dict]:
+        """One JSON-ready dict per wavenumber.
+
+        Keys: ``wavenumber_per_km``, ``wavelength_km``, ``power`` (fraction of variance),
+        ``psd`` (field units squared per cycle/km, as in the density methods' records) and
+        ``false_alarm``; Python floats, a non-finite value as None.
+        """
+        columns = {
+            "wavenumber_per_km": self.wavenumber * 1000.0,
+            "wavelength_km": self.wavelength / 1000.0,
+            "power": self.power,
+            "psd": self.psd / 1000.0,
+            "false_alarm": self.false_alarm,
+        }
+        keys = list(columns)
+        rows = zip(*(column.tolist() for column in columns.values()), strict=True)
+        return [
+            {key: (value if math.isfinite(value) else None) for key, value in zip(keys, row, strict=True)}
+            for row in rows
+        ]
 
     def __str__(self) -> str:
         grid = (
@@ -262,7 +294,11 @@ def lomb_scargle(
         it is recomputed with astropy's more accurate low-rank NUFFT (eps = 1e-10), and a
         warning is given if that fails too.
     fap_method : {"baluev", "davies", "naive", "bootstrap"}
-        Method of the false-alarm probability of the highest peak.
+        Method of the false-alarm probabilities, of the highest peak and at every
+        wavenumber. The analytic methods are evaluated at every power of the grid at once;
+        ``"bootstrap"`` draws ``n_bootstraps`` resampled records once (astropy searches each
+        on its own automatic grid up to this grid's highest wavenumber) and reads every
+        wavenumber's probability off the same sorted maxima.
     n_bootstraps, random_seed : int
         Used by ``fap_method="bootstrap"`` only.
 
@@ -309,15 +345,19 @@ def lomb_scargle(
     fap_options = {}
     if fap_method == "bootstrap":
         fap_options = {"n_bootstraps": int(n_bootstraps), "random_seed": int(random_seed)}
-    fap = float(
+    # One call for the whole grid: the analytic methods are vectorised over the power, and
+    # the bootstrap draws its maxima once per call.
+    false_alarm = np.asarray(
         periodogram.false_alarm_probability(
-            power[peak],
+            power,
             method=fap_method,
             minimum_frequency=float(grid.min()),
             maximum_frequency=float(grid.max()),
             method_kwds=fap_options or None,
-        )
+        ),
+        dtype=np.float64,
     )
+    false_alarm = np.clip(np.broadcast_to(false_alarm, power.shape), 0.0, 1.0)
     residual_sum = float(np.sum((field_values - field_values.mean()) ** 2))
     length = float(np.ptp(where))
     steps = np.diff(np.sort(where))
@@ -326,9 +366,10 @@ def lomb_scargle(
         wavenumber=grid,
         power=power,
         psd=power * residual_sum * mean_spacing,
+        false_alarm=false_alarm,
         peak_wavenumber=float(grid[peak]),
         peak_power=float(power[peak]),
-        false_alarm_probability=fap,
+        false_alarm_probability=float(false_alarm[peak]),
         fap_method=fap_method + (f" ({int(n_bootstraps)} draws)" if fap_options else ""),
         method=used,
         spot_check_error=spot_error,

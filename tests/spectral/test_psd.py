@@ -328,3 +328,39 @@ def test_coefficients_reproduce_the_densities():
     density = eigen.onesided * np.mean(np.abs(eigen.coefficients) ** 2, axis=0)
     np.testing.assert_allclose(density, multitaper_psd(values, spacing=20.0, nw=3.0, adaptive=False).psd)
     np.testing.assert_allclose(np.sum(eigen.tapers**2, axis=1), 1.0)
+
+
+class TestCoefficientOptions:
+    def test_fewer_blocks_on_request(self):
+        # One Hann block of a 100-sample record is scipy.signal.welch with a single segment
+        # (nperseg = record length); none when the record is shorter than a block (the
+        # stack is empty, dof 0).
+        from scipy.signal import welch
+
+        values = _red_profile(100, seed=4)
+        one = welch_coefficients(values, spacing=10.0, segment_length=1000.0, min_blocks=1)
+        assert one.n_segments == 1 and one.coefficients.shape == (1, 51)
+        _, expected = welch(values, fs=0.1, window="hann", nperseg=100, detrend="linear")
+        np.testing.assert_allclose(one.onesided * np.abs(one.coefficients[0]) ** 2, expected,
+                                   rtol=1e-10)
+        none = welch_coefficients(values[:60], spacing=10.0, segment_length=1000.0, min_blocks=0)
+        assert none.coefficients.shape == (0, 51) and np.all(none.dof == 0)
+        with pytest.raises(SpacingError, match="once"):
+            welch_coefficients(values[:60], spacing=10.0, segment_length=1000.0, min_blocks=1)
+        with pytest.raises(InputError, match="min_blocks"):
+            welch_coefficients(values, spacing=10.0, segment_length=1000.0, min_blocks=-1)
+
+    def test_zero_padded_eigencoefficients(self):
+        # Zero padding only interpolates: at the common wavenumbers of the padded grid (every
+        # second bin of twice the length), the coefficients equal the unpadded ones (DFT of a
+        # zero-padded sequence, common practice).
+        values = _red_profile(300, seed=5)
+        plain = multitaper_coefficients(values, spacing=20.0, nw=3.0)
+        padded = multitaper_coefficients(values, spacing=20.0, nw=3.0, n_fft=600)
+        assert padded.n == 300 and padded.n_fft == 600 and padded.coefficients.shape == (5, 301)
+        np.testing.assert_allclose(padded.coefficients[:, ::2], plain.coefficients, rtol=1e-10,
+                                   atol=1e-10 * np.abs(plain.coefficients).max())
+        np.testing.assert_allclose(padded.wavenumber[::2], plain.wavenumber)
+        assert padded.half_bandwidth == plain.half_bandwidth
+        with pytest.raises(InputError, match="n_fft"):
+            multitaper_coefficients(values, spacing=20.0, n_fft=299)

@@ -123,11 +123,64 @@ class TestGridAndStatistics:
         assert result.fap_method == "bootstrap (50 draws)"
         assert 0.0 <= result.false_alarm_probability <= 1.0
 
+    @pytest.mark.parametrize("fap_method", ["baluev", "davies", "naive"])
+    def test_false_alarm_at_every_wavenumber_matches_astropy(self, fap_method):
+        # Reference: astropy's LombScargle.false_alarm_probability called on one power at a
+        # time over the same band; our array comes from one vectorised call.
+        from astropy.timeseries import LombScargle
+
+        distance, values = _stations(250, seed=9, noise=2.0)
+        result = lomb_scargle(distance, values, fap_method=fap_method, method="exact")
+        assert result.false_alarm.shape == result.power.shape
+        reference = LombScargle(distance, values, fit_mean=True, center_data=True)
+        chosen = np.unique(np.r_[np.linspace(0, result.power.size - 1, 7).astype(int),
+                                 int(np.argmax(result.power))])
+        for i in chosen:
+            expected = reference.false_alarm_probability(
+                result.power[i], method=fap_method,
+                minimum_frequency=result.wavenumber.min(), maximum_frequency=result.wavenumber.max(),
+            )
+            assert result.false_alarm[i] == pytest.approx(min(float(expected), 1.0), rel=1e-12, abs=1e-300)
+        assert result.false_alarm_probability == result.false_alarm[np.argmax(result.power)]
+        # A higher peak is never more likely from noise alone: where the approximations are
+        # meant (high peaks, small probabilities) the array falls as the power rises. Near 1,
+        # Baluev's bound wobbles by about 1e-5 (astropy's own values, kept as they are).
+        order = np.argsort(result.power)
+        small = result.false_alarm[order] < 0.5
+        assert small.sum() >= 3
+        assert np.all(np.diff(result.false_alarm[order][small]) <= 1e-15)
+
+    def test_bootstrap_false_alarm_shares_one_set_of_draws(self):
+        # With 40 draws every probability is a multiple of 1/40 (the share of bootstrap maxima
+        # at or above the power), it falls as the power rises, and the peak's value is the
+        # scalar of the result (astropy's bootstrap: the sorted maxima of resampled records).
+        distance, values = _stations(120, seed=7)
+        result = lomb_scargle(distance, values, fap_method="bootstrap", n_bootstraps=40)
+        np.testing.assert_allclose(result.false_alarm * 40, np.round(result.false_alarm * 40), atol=1e-9)
+        order = np.argsort(result.power)
+        assert np.all(np.diff(result.false_alarm[order]) <= 0)
+        assert result.false_alarm_probability == result.false_alarm[np.argmax(result.power)]
+
+    def test_records_are_json_ready(self):
+        import json
+
+        distance, values = _stations(300, seed=8)
+        result = lomb_scargle(distance, values)
+        records = result.records()
+        assert len(records) == result.wavenumber.size
+        assert set(records[0]) == {"wavenumber_per_km", "wavelength_km", "power", "psd", "false_alarm"}
+        peak = int(np.argmax(result.power))
+        assert records[peak]["wavelength_km"] == pytest.approx(1e-3 / result.peak_wavenumber)
+        assert records[peak]["psd"] == pytest.approx(result.psd[peak] / 1000.0)  # per cycle/km
+        assert records[peak]["false_alarm"] == result.false_alarm_probability
+        assert json.loads(json.dumps(records)) == records
+
     def test_frame_and_text(self):
         distance, values = _stations(300, seed=8)
         result = lomb_scargle(distance, values)
         frame = result.to_frame()
-        assert list(frame.columns) == ["wavenumber_per_km", "wavelength_km", "power", "psd_per_cycle_per_km"]
+        assert list(frame.columns) == ["wavenumber_per_km", "wavelength_km", "power",
+                                       "psd_per_cycle_per_km", "false_alarm"]
         text = str(result)
         assert "probability that noise alone gives a peak this high anywhere in the searched band" in text
 
