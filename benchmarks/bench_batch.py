@@ -1,0 +1,301 @@
+"""Benchmark: ``profiles batch`` end to end and stage by stage, against bare library calls.
+
+Targets (issue "Archive scale on Dask"), all measured in this run on a synthetic archive
+(CSV files with the demo's columns line,time,lon,lat,depth_m):
+
+- end to end within 2x of the bare stages: ``pandas.read_csv``, one ``pyproj.Geod.inv`` over
+  all station pairs, ``numpy.interp`` onto the uniform grid, and batched ``numpy.fft.rfft``
+  with power and argmax (per segment and per window);
+- two workers at least 1.6x as fast as one worker on a 2-core machine;
+- peak resident memory per worker that does not grow with the number of files (archives of
+  1x, 2x and 4x the files).
+
+    python benchmarks/bench_batch.py       # 16 files x 10 lines x 10,000 points; memory 8/16/32 files
+    python benchmarks/bench_batch.py --files 4 --points 2000 --repeat 1 --skip-memory   # quicker
+    python benchmarks/bench_batch.py --memory-only
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import tempfile
+import time
+import tracemalloc
+from collections import defaultdict
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from bench_foundation import synthetic_lines
+from pyproj import Geod
+
+from profiles.batch import find_survey_files, run_batch
+from profiles.batch_task import BatchOptions, analyse_file
+
+STAGES = ("read", "segments", "spacing", "spectra", "windows", "write")
+#: Bare lower bound of each stage (None: no bare counterpart).
+BARE_OF = {"read": "read_csv", "segments": "Geod.inv", "spacing": None,
+           "spectra": "interp + rfft", "windows": "windowed rfft", "write": None}
+#: The windows of the batch with the default window (256 samples) and step (a quarter).
+WINDOW, STRIDE = 256, 64
+
+
+def make_archive(folder: Path, *, files: int, lines: int, points: int) -> list[Path]:
+    """``files`` CSV files of ``lines`` lines of ``points`` stations each (200-300 m steps)."""
+    folder.mkdir(parents=True, exist_ok=True)
+    paths = []
+    for number in range(files):
+        codes, lon, lat, values = synthetic_lines(lines, points, seed=number)
+        seconds = np.tile(np.arange(points) * 50, lines).astype("timedelta64[s]")
+        stamp = (np.datetime64("2026-03-04T05:06:07") + seconds).astype(str)
+        frame = pd.DataFrame({
+            "line": np.char.add(f"F{number:03d}-L", codes.astype(str)),
+            "time": np.char.add(stamp, "Z"),
+            "lon": lon,
+            "lat": lat,
+            "depth_m": 3000.0 + 100.0 * values,
+        })
+        path = folder / f"file{number:03d}.csv"
+        frame.to_csv(path, index=False, float_format="%.6f")
+        paths.append(path)
+    return paths
+
+
+def tasks_for(paths, out: Path, options: BatchOptions) -> list[dict]:
+    """The tasks run_batch would submit (for running them in this process)."""
+    return [{"path": str(f.path), "file": f.relative, "id": f.id, "size": f.size, "mtime_ns": f.mtime_ns,
+             "out": str(out), "options": options.to_json(), "options_key": options.key()}
+            for f in find_survey_files(paths).files]
+
+
+def in_process(paths, options: BatchOptions, repeat: int) -> dict[str, float]:
+    """Seconds per stage of analysing every file in this process (best of ``repeat``)."""
+    best = None
+    for _ in range(repeat):
+        with tempfile.TemporaryDirectory() as out:
+            total = defaultdict(float)
+            for task in tasks_for(paths, Path(out), options):
+                record = analyse_file(task)
+                assert record["status"] == "done", record["reason"]
+                for stage, seconds in record["seconds"].items():
+                    total[stage] += seconds
+        if best is None or total["total"] < best["total"]:
+            best = dict(total)
+    return best
+
+
+def traced_peaks(path: Path, options: BatchOptions) -> dict[str, float]:
+    """Peak traced memory (MB, tracemalloc) during each stage of one file."""
+    with tempfile.TemporaryDirectory() as out:
+        (task,) = tasks_for([path], Path(out), options)
+        tracemalloc.start()
+        try:
+            record = analyse_file(task)
+        finally:
+            tracemalloc.stop()
+    return record["traced_peak_mb"]
+
+
+def bare_file(path: Path, rounds: int = 1) -> dict[str, float]:
+    """Seconds of the bare lower-bound stages on one file (each done ``rounds`` times)."""
+    from numpy.lib.stride_tricks import sliding_window_view
+
+    geod = Geod(ellps="WGS84")
+    total = defaultdict(float)
+    for _ in range(rounds):
+        start = time.perf_counter()
+        table = pd.read_csv(path, engine="c")
+        total["read_csv"] += time.perf_counter() - start
+
+        lon, lat = table["lon"].to_numpy(), table["lat"].to_numpy()
+        values = table["depth_m"].to_numpy()
+        lines = table["line"].nunique()
+        start = time.perf_counter()
+        _, _, step = geod.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+        total["Geod.inv"] += time.perf_counter() - start
+
+        per_line = values.size // lines
+        distance = np.cumsum(np.concatenate([[0.0], step])).reshape(lines, per_line)
+        series = values.reshape(lines, per_line)
+        start = time.perf_counter()
+        uniform = np.empty_like(series)
+        for row in range(lines):
+            grid = np.linspace(distance[row, 0], distance[row, -1], per_line)
+            uniform[row] = np.interp(grid, distance[row], series[row])
+        spectrum = np.abs(np.fft.rfft(uniform, axis=-1)) ** 2
+        np.argmax(spectrum[:, 1:], axis=-1)
+        total["interp + rfft"] += time.perf_counter() - start
+
+        start = time.perf_counter()
+        for row in range(lines):
+            frames = sliding_window_view(uniform[row], WINDOW)[::STRIDE]
+            power = np.abs(np.fft.rfft(frames, axis=-1)) ** 2
+            np.argmax(power[:, 2:], axis=-1)
+        total["windowed rfft"] += time.perf_counter() - start
+    return dict(total)
+
+
+def bare(paths, repeat: int) -> dict[str, float]:
+    """Seconds of the bare lower-bound stages over the same files (best of ``repeat``)."""
+    best = None
+    for _ in range(repeat):
+        total = defaultdict(float)
+        for path in paths:
+            for stage, seconds in bare_file(path).items():
+                total[stage] += seconds
+        total["total"] = sum(total.values())
+        if best is None or total["total"] < best["total"]:
+            best = dict(total)
+    return best
+
+
+def bare_processes(paths, *, processes: int, rounds: int, repeat: int) -> float:
+    """Wall seconds of the bare stages of every file (``rounds`` times each, one job per file)
+    on a pool of ``processes`` processes (best of ``repeat``): what the machine gives two
+    processes at the moment, against which the batch's two workers are judged."""
+    from concurrent.futures import ProcessPoolExecutor
+    from functools import partial
+
+    job = partial(bare_file, rounds=rounds)
+    best = float("inf")
+    with ProcessPoolExecutor(processes) as pool:
+        list(pool.map(job, paths[:processes]))  # start the processes, import, warm up
+        for _ in range(repeat):
+            start = time.perf_counter()
+            list(pool.map(job, paths))
+            best = min(best, time.perf_counter() - start)
+    return best
+
+
+def end_to_end(paths, options: BatchOptions, *, workers: int, repeat: int):
+    """Wall seconds of run_batch on a local cluster (best of ``repeat``) and its records."""
+    best, records = None, None
+    for _ in range(repeat):
+        with tempfile.TemporaryDirectory() as out:
+            start = time.perf_counter()
+            summary = run_batch(paths, out=out, options=options, workers=workers)
+            seconds = time.perf_counter() - start
+        assert summary.counts["done"] == len(paths), summary.failures
+        if best is None or seconds < best:
+            best, records = seconds, summary.files
+    return best, records
+
+
+def worker_peaks(records) -> list[float]:
+    """Peak RSS (MB) of each worker process: the largest value any of its tasks reported."""
+    peaks: dict[int, float] = {}
+    for record in records:
+        pid, peak = record["worker"]["pid"], record["worker"]["peak_rss_mb"]
+        peaks[pid] = max(peaks.get(pid, 0.0), peak)
+    return sorted(peaks.values())
+
+
+def cluster_start_and_close() -> float:
+    """Seconds to start and close a 2-worker local cluster (part of every end-to-end run)."""
+    import logging
+
+    from distributed import Client, LocalCluster
+
+    start = time.perf_counter()
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
+                      silence_logs=logging.ERROR) as cluster, Client(cluster):
+        pass
+    return time.perf_counter() - start
+
+
+def memory(every: list[Path], files: int, options: BatchOptions) -> None:
+    """Peak RSS per worker (2 workers) for archives of 1x, 2x and 4x ``files`` files."""
+    print()
+    print("peak RSS per worker (2 workers) against the number of files:")
+    for multiple in (1, 2, 4):
+        subset = every[: multiple * files]
+        seconds, records = end_to_end(subset, options, workers=2, repeat=1)
+        print(f"  {len(subset):4d} files ({multiple}x): {seconds:7.2f} s, "
+              f"worker peaks {[round(p) for p in worker_peaks(records)]} MB")
+
+
+def rate(points: int, seconds: float) -> str:
+    return f"{points / seconds / 1e6:8.3f} M/s" if seconds > 0 else "       - M/s"
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--files", type=int, default=16)
+    parser.add_argument("--lines", type=int, default=10)
+    parser.add_argument("--points", type=int, default=10_000, help="stations per line")
+    parser.add_argument("--repeat", type=int, default=3, help="best of this many runs")
+    parser.add_argument("--skip-memory", action="store_true", help="leave out the 1x/2x/4x memory runs")
+    parser.add_argument("--memory-only", action="store_true", help="only the 1x/2x/4x memory runs")
+    parser.add_argument("--memory-files", type=int, default=8, help="files of the 1x memory run")
+    args = parser.parse_args()
+    options = BatchOptions(field="depth_m")
+
+    with tempfile.TemporaryDirectory() as folder:
+        every = make_archive(Path(folder) / "archive", files=max(args.files, 4 * args.memory_files),
+                             lines=args.lines, points=args.points)
+        paths = every[: args.files]
+        points = args.files * args.lines * args.points
+        megabytes = sum(p.stat().st_size for p in paths) / 1e6
+        print(f"archive: {args.files} files x {args.lines} lines x {args.points:,} points = "
+              f"{points:,} points ({megabytes:.1f} MB of CSV); {os.cpu_count()} CPUs; best of {args.repeat}")
+
+        if args.memory_only:
+            memory(every, args.memory_files, options)
+            return
+        warm = make_archive(Path(folder) / "warm", files=1, lines=2, points=500)
+        in_process(warm, options, 1)  # imports and caches, outside the timings
+        ours = in_process(paths, options, args.repeat)
+        peaks = traced_peaks(paths[0], options)
+        floor = bare(paths, args.repeat)
+
+        print()
+        print("stage (one process)   seconds     points/s   traced peak MB (1 file) | bare lower bound"
+              "        seconds     points/s   ratio")
+        for stage in STAGES:
+            name = BARE_OF[stage]
+            left = f"{stage:<20} {ours[stage]:8.3f} {rate(points, ours[stage])} {peaks[stage]:12.1f}"
+            if name is None:
+                print(f"{left}             | -")
+                continue
+            print(f"{left}             | {name:<20} {floor[name]:8.3f} {rate(points, floor[name])} "
+                  f"{ours[stage] / floor[name]:7.1f}")
+        print(f"{'all stages':<20} {ours['total']:8.3f} {rate(points, ours['total'])} {'':12} "
+              f"            | {'bare total':<20} {floor['total']:8.3f} {rate(points, floor['total'])} "
+              f"{ours['total'] / floor['total']:7.1f}")
+
+        startup = cluster_start_and_close()
+        # Bare jobs about as long as one task, so that the pool sees the machine as the batch does.
+        rounds = max(1, round(ours["total"] / floor["total"]))
+        pool_one = bare_processes(paths, processes=1, rounds=rounds, repeat=args.repeat)
+        pool_two = bare_processes(paths, processes=2, rounds=rounds, repeat=args.repeat)
+        one, records_one = end_to_end(paths, options, workers=1, repeat=args.repeat)
+        two, records_two = end_to_end(paths, options, workers=2, repeat=args.repeat)
+        print()
+        print(f"local cluster start and close (2 workers): {startup:.2f} s")
+        print(f"end to end, 1 worker : {one:8.3f} s {rate(points, one)}   ratio to bare total "
+              f"{one / floor['total']:.1f} (target <= 2.0)")
+        print(f"end to end, 2 workers: {two:8.3f} s {rate(points, two)}   ratio to bare total / 2 "
+              f"{two / (floor['total'] / 2):.1f}")
+        print(f"end to end, 1 worker / all stages in one process: {one / ours['total']:.2f} "
+              f"(what Dask adds: cluster start, worker imports, tasks)")
+        print(f"two workers / one worker: {one / two:.2f}x (target >= 1.6 on 2 cores); the bare stages "
+              f"in two processes / one, in this run: {pool_one / pool_two:.2f}x "
+              f"(what the machine gives a second process now)")
+        for workers, seconds, records in ((1, one, records_one), (2, two, records_two)):
+            busy = sum(r["seconds"]["total"] for r in records)
+            first = sum(max(r["seconds"]["total"] for r in records if r["worker"]["pid"] == pid)
+                        for pid in {r["worker"]["pid"] for r in records})
+            print(f"  {workers} worker(s): tasks busy {busy:.2f} s of {workers} x {seconds:.2f} s "
+                  f"({busy / (workers * seconds):.0%}); slowest task per worker (the first, with "
+                  f"the imports) {first / workers:.2f} s; peak RSS per worker "
+                  f"{[round(p) for p in worker_peaks(records)]} MB")
+
+        if not args.skip_memory:
+            memory(every, args.memory_files, options)
+    sys.stdout.flush()
+
+
+if __name__ == "__main__":
+    main()
