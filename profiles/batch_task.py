@@ -254,7 +254,7 @@ def _analyse_and_write(task: dict, options, clock: _Clock, record: dict) -> dict
     segments = build_segments(survey, **options.segment_options())
     selection = []
     if options.lines:  # a file that holds none of the lines is done, with empty parts
-        segments = segments.select(options.lines)
+        segments = segments.select(options.lines, strict=False)
         if len(segments) == 0:
             selection = [f"{path}: no segment of the lines asked for ({', '.join(options.lines)})"]
     elif len(segments) == 0:

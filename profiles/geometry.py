@@ -191,9 +191,20 @@ class Segments:
     def __len__(self) -> int:
         return len(self.segments)
 
-    def select(self, lines) -> Segments:
-        """Only the segments of the given line ids."""
+    def select(self, lines, *, strict: bool = True) -> Segments:
+        """Only the segments of the given line ids.
+
+        Raises
+        ------
+        InputError
+            With ``strict``, when a line id is not in the survey (the message lists the lines
+            there are).
+        """
         keep = set(lines)
+        known = set(self.survey.lines)
+        missing = [line for line in lines if line not in known]
+        if strict and missing:
+            raise InputError(f"no line {', '.join(missing)} in the survey; lines: {', '.join(sorted(known))}")
         return Segments(
             self.survey,
             tuple(s for s in self.segments if s.line in keep),

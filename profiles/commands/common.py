@@ -145,13 +145,10 @@ def load(args: argparse.Namespace, *, fields: tuple[str, ...] | None = None) -> 
         turn_distance=args.turn_distance,
     )
     if args.lines:
-        known = set(segments.survey.lines)
-        missing = [line for line in args.lines if line not in known]
-        if missing:
-            raise InputError(
-                f"--line: no line {', '.join(missing)} in the survey; lines: {', '.join(sorted(known))}"
-            )
-        segments = segments.select(args.lines)
+        try:
+            segments = segments.select(args.lines)
+        except InputError as error:
+            raise InputError(f"--line: {error}") from None
     if len(segments) == 0:
         raise InputError(f"{', '.join(args.survey)}: no segment with two or more stations")
     return Loaded(segments.survey, segments, survey.warnings + segments.warnings)

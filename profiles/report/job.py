@@ -329,12 +329,6 @@ def run_survey(config: SurveyConfig, *, quiet: bool = True) -> SurveyResults:
         )
         notices += [Notice("segments", "", m) for m in segments.warnings]
         if config.lines:
-            known = set(segments.survey.lines)
-            missing = [line for line in config.lines if line not in known]
-            if missing:
-                raise InputError(
-                    f"no line {', '.join(missing)} in the survey; lines: {', '.join(sorted(known))}"
-                )
             segments = segments.select(config.lines)
         if len(segments) == 0:
             names = ", ".join(str(p) for p in config.inputs)
