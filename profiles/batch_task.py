@@ -10,7 +10,8 @@ Per file
 --------
 1. :func:`profiles.read.read_survey` with the field requested (rows without a usable value are
    dropped and counted), then :func:`profiles.geometry.build_segments`;
-2. the spacing audit (:func:`profiles.spacing.audit_spacing`), one row per segment;
+2. the spacing audit with the field's aliasing budget (:func:`profiles.spacing.audit_spacing`,
+   as ``profiles spacing --field``), one row per segment;
 3. per segment, the field resampled and its harmonic table, Fisher's g test and the red-noise
    test (:func:`profiles.analysis.resample_field`, :func:`profiles.analysis.analyse_segment`);
 4. sliding windows along the resampled segments (:func:`profiles.windows.along_track_windows`);
@@ -217,8 +218,9 @@ def analyse_file(task: dict) -> dict:
     dict
         The file's record: ``file``, ``id``, ``status`` (``done`` or ``failed``), ``reason``
         and ``error_type`` of a failure, ``rows`` (row accounting), ``lines``, ``segments``,
-        ``spectra``, ``windows``, ``stations``, ``warnings``, ``seconds`` per stage and
-        ``worker`` (process id and peak resident memory of the process so far, MB).
+        ``spectra``, ``windows``, ``stations``, ``warnings``, ``seconds`` per stage,
+        ``worker`` (process id and peak resident memory of the process so far, MB), and,
+        while :mod:`tracemalloc` traces, ``traced_peak_mb`` per stage.
     """
     clock = _Clock()
     record = {"file": task["file"], "id": task["id"], "status": "done", "reason": None, "error_type": None}
