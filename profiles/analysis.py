@@ -19,7 +19,13 @@ from .geometry import Segment, Segments
 from .resample import Interpolation, UniformSegment, resample
 from .spectral.harmonics import HarmonicTable, harmonic_table
 from .spectral.psd import Spectrum, multitaper_psd, welch_psd
-from .spectral.significance import FisherTest, RedNoiseTest, fisher_from_variances, red_noise_test
+from .spectral.significance import (
+    FisherTest,
+    RedNoiseTest,
+    fisher_from_variances,
+    lag1_autocorrelation,
+    red_noise_from_variances,
+)
 
 Method = Literal["harmonic", "welch", "multitaper", "lomb-scargle"]
 
@@ -79,6 +85,27 @@ class SegmentSpectrum:
         flagged = np.flatnonzero(self.red_noise.significant)
         order = flagged[np.argsort(self.harmonics.variance[flagged])[::-1]]
         return self.harmonics.wavelength[order]
+
+    def summary(self) -> dict:
+        """One row of the per-segment summary (``profiles spectrum`` table, batch parts)."""
+        fisher, table = self.fisher, self.harmonics
+        strongest = self.red_dominant_k
+        return {
+            "line": self.uniform.line,
+            "segment": self.uniform.number,
+            "n": self.uniform.n,
+            "spacing_km": self.uniform.spacing / 1e3,
+            "dominant_wavelength_km": float(fisher.dominant_wavelength) / 1e3,
+            "variance_fraction": float(table.variance_fraction[fisher.dominant_k]),
+            "fisher_p_value": float(fisher.p_value),
+            "white_noise_significant": bool(fisher.significant),
+            "red_noise_lag1": float(self.red_noise.lag1),
+            "red_noise_dominant_km": (
+                float("nan") if strongest is None else float(table.wavelength[strongest]) / 1e3
+            ),
+            "red_noise_significant": strongest is not None,
+            "n_red_significant": int(self.red_noise.significant.sum()),
+        }
 
     def peak_harmonics(self, count: int = 3, *, separation: int = 2) -> np.ndarray:
         """The strongest red-noise-significant harmonics, at least ``separation`` + 1 apart
@@ -295,7 +322,15 @@ def analyse_segment(
     table = harmonic_table(values, spacing=spacing, detrend=detrend, taper=taper)
     untapered = table if taper is None else harmonic_table(values, spacing=spacing, detrend=detrend)
     fisher = fisher_from_variances(untapered.variance, n=uniform.n, spacing=spacing, alpha=alpha)
-    red = red_noise_test(values, spacing=spacing, detrend=detrend, alpha=alpha)
+    # The same test as red_noise_test, on the variances already computed (one FFT per segment).
+    red = red_noise_from_variances(
+        untapered.variance,
+        n=uniform.n,
+        lag1=lag1_autocorrelation(values, detrend=detrend, estimator="corrected"),
+        spacing=spacing,
+        alpha=alpha,
+        lag1_estimator="corrected",
+    )
     density = uneven = None
     if method == "welch":
         length = segment_length or uniform.n * spacing / DEFAULT_BLOCKS_PER_SEGMENT

@@ -347,20 +347,12 @@ def _spectrum_row(result, field: str, note: str) -> dict:
     """
     if result is None:
         return {"field": field, "spectrum_note": note}
-    fisher, red, table = result.fisher, result.red_noise, result.harmonics
-    strongest = result.red_dominant_k
+    row = result.summary()
     return {
         "field": field,
-        "resampled_n": result.uniform.n,
-        "resampled_spacing_km": result.uniform.spacing / 1e3,
-        "dominant_wavelength_km": float(fisher.dominant_wavelength) / 1e3,
-        "variance_fraction": float(table.variance_fraction[fisher.dominant_k]),
-        "fisher_p_value": float(fisher.p_value),
-        "white_noise_significant": bool(fisher.significant),
-        "red_noise_lag1": float(red.lag1),
-        "red_noise_dominant_km": np.nan if strongest is None else float(table.wavelength[strongest]) / 1e3,
-        "red_noise_significant": strongest is not None,
-        "n_red_significant": int(red.significant.sum()),
+        "resampled_n": row.pop("n"),
+        "resampled_spacing_km": row.pop("spacing_km"),
+        **{key: value for key, value in row.items() if key not in ("line", "segment")},
         "spectrum_note": "",
     }
 

@@ -99,7 +99,7 @@ def run(args: argparse.Namespace) -> int:
         )
         for segment, uniform in pairs
     ]
-    summary = pd.DataFrame([_summary_row(r) for r in results])
+    summary = pd.DataFrame([r.summary() for r in results])
     all_warnings = list(loaded.warnings) + warnings
     document = {
         "rows": loaded.survey.accounting.to_json(),
@@ -122,28 +122,6 @@ def run(args: argparse.Namespace) -> int:
         )
         print(text_table(summary))
     return report_warnings(args, all_warnings)
-
-
-def _summary_row(result) -> dict:
-    fisher = result.fisher
-    strongest = result.red_dominant_k
-    table = result.harmonics
-    return {
-        "line": result.uniform.line,
-        "segment": result.uniform.number,
-        "n": result.uniform.n,
-        "spacing_km": result.uniform.spacing / 1e3,
-        "dominant_wavelength_km": fisher.dominant_wavelength / 1e3,
-        "variance_fraction": float(table.variance_fraction[fisher.dominant_k]),
-        "fisher_p_value": float(fisher.p_value),
-        "white_noise_significant": bool(fisher.significant),
-        "red_noise_lag1": float(result.red_noise.lag1),
-        "red_noise_dominant_km": (
-            float("nan") if strongest is None else float(table.wavelength[strongest]) / 1e3
-        ),
-        "red_noise_significant": strongest is not None,
-        "n_red_significant": int(result.red_noise.significant.sum()),
-    }
 
 
 def _write(args, results, summary, document, OutputFolder) -> None:
