@@ -4,7 +4,15 @@ from __future__ import annotations
 
 import argparse
 
-from .common import add_output_arguments, add_survey_arguments, length, print_json, report_warnings
+from .common import (
+    add_alpha,
+    add_output_arguments,
+    add_shortest_wavelength,
+    add_survey_arguments,
+    length,
+    print_json,
+    report_warnings,
+)
 from .spacing import fraction
 
 NAME = "batch"
@@ -27,31 +35,64 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_survey_arguments(parser, field="required")
     _name_paths(parser)
     target = parser.add_argument_group("targets")
-    target.add_argument("--shortest-wavelength", type=length("--shortest-wavelength"), metavar="LENGTH",
-                        help="shortest wavelength you need to resolve, e.g. 4km")
-    target.add_argument("--longest-wavelength", type=length("--longest-wavelength"), metavar="LENGTH",
-                        help="longest wavelength asked about; flags segments shorter than two cycles of it")
+    add_shortest_wavelength(target, help="shortest wavelength you need to resolve, e.g. 4km")
+    target.add_argument(
+        "--longest-wavelength",
+        type=length("--longest-wavelength"),
+        metavar="LENGTH",
+        help="longest wavelength asked about; flags segments shorter than two cycles of it",
+    )
     budget = parser.add_argument_group("aliasing budget (as profiles spacing --field)")
-    budget.add_argument("--alias-tolerance", type=fraction, default=0.01, metavar="FRACTION",
-                        help="largest acceptable aliased power at the shortest wavelength, as a fraction "
-                        "of the true power there (default 0.01)")
-    budget.add_argument("--potential-field", action="store_true",
-                        help="the field is a potential field: fit an exponential fall-off, not a power law")
-    budget.add_argument("--fit-band", nargs=2, type=length("--fit-band"), metavar=("LONGEST", "SHORTEST"),
-                        help="wavelengths bounding the fall-off fit (default: chosen automatically)")
+    budget.add_argument(
+        "--alias-tolerance",
+        type=fraction,
+        default=0.01,
+        metavar="FRACTION",
+        help="largest acceptable aliased power at the shortest wavelength, as a fraction "
+        "of the true power there (default 0.01)",
+    )
+    budget.add_argument(
+        "--potential-field",
+        action="store_true",
+        help="the field is a potential field: fit an exponential fall-off, not a power law",
+    )
+    budget.add_argument(
+        "--fit-band",
+        nargs=2,
+        type=length("--fit-band"),
+        metavar=("LONGEST", "SHORTEST"),
+        help="wavelengths bounding the fall-off fit (default: chosen automatically)",
+    )
     analysis = parser.add_argument_group("spectra and windows")
-    analysis.add_argument("--spacing", type=length("--spacing"), metavar="LENGTH",
-                          help="resampling spacing (default: each segment's median spacing)")
-    analysis.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
-    analysis.add_argument("--window", type=length("--window"), metavar="LENGTH",
-                          help="window length (default from each file's spacing and the shortest wavelength)")
-    analysis.add_argument("--step", type=length("--step"), metavar="LENGTH",
-                          help="distance between window starts (default a quarter of the window)")
+    analysis.add_argument(
+        "--spacing",
+        type=length("--spacing"),
+        metavar="LENGTH",
+        help="resampling spacing (default: each segment's median spacing)",
+    )
+    add_alpha(analysis)
+    analysis.add_argument(
+        "--window",
+        type=length("--window"),
+        metavar="LENGTH",
+        help="window length (default from each file's spacing and the shortest wavelength)",
+    )
+    analysis.add_argument(
+        "--step",
+        type=length("--step"),
+        metavar="LENGTH",
+        help="distance between window starts (default a quarter of the window)",
+    )
     cluster = parser.add_argument_group("cluster").add_mutually_exclusive_group()
-    cluster.add_argument("--workers", type=int, metavar="N",
-                         help="worker processes of the local cluster (default: one per CPU)")
-    cluster.add_argument("--scheduler", metavar="ADDRESS",
-                         help="use a running Dask scheduler, e.g. tcp://10.0.0.5:8786")
+    cluster.add_argument(
+        "--workers",
+        type=int,
+        metavar="N",
+        help="worker processes of the local cluster (default: one per CPU)",
+    )
+    cluster.add_argument(
+        "--scheduler", metavar="ADDRESS", help="use a running Dask scheduler, e.g. tcp://10.0.0.5:8786"
+    )
     add_output_arguments(parser)
 
 

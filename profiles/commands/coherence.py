@@ -4,7 +4,15 @@ from __future__ import annotations
 
 import argparse
 
-from .common import add_output_arguments, add_survey_arguments, length, load, print_json, report_warnings
+from .common import (
+    add_alpha,
+    add_output_arguments,
+    add_survey_arguments,
+    length,
+    load,
+    print_json,
+    report_warnings,
+)
 
 NAME = "coherence"
 HELP = "coherence and admittance of one field against another (e.g. gravity against depth)"
@@ -39,7 +47,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="Welch block length (default half the longest segment)",
     )
     group.add_argument("--nw", type=float, default=4.5, help="multitaper NW (default 4.5)")
-    group.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
+    add_alpha(group)
     group.add_argument(
         "--spacing",
         type=length("--spacing"),

@@ -47,6 +47,22 @@ def fraction(what: str):
     return parse
 
 
+def add_alpha(
+    group, *, default: float | None = 0.05, help: str = "significance level (default 0.05)"
+) -> None:
+    """``--alpha``: the significance level, a fraction strictly between 0 and 1."""
+    group.add_argument("--alpha", type=fraction("--alpha"), default=default, help=help)
+
+
+def add_shortest_wavelength(
+    group, *, help: str = "shortest wavelength you need to resolve, e.g. 4km"
+) -> None:
+    """``--shortest-wavelength``: the target the spacing and the aliasing checks use."""
+    group.add_argument(
+        "--shortest-wavelength", type=length("--shortest-wavelength"), metavar="LENGTH", help=help
+    )
+
+
 def gap_value(text: str):
     """argparse type for ``--gap``: a multiple (``5x``) or a length (``3km``)."""
     try:

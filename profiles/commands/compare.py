@@ -4,7 +4,16 @@ from __future__ import annotations
 
 import argparse
 
-from .common import add_output_arguments, add_survey_arguments, length, load, print_json, report_warnings
+from .common import (
+    add_alpha,
+    add_output_arguments,
+    add_shortest_wavelength,
+    add_survey_arguments,
+    length,
+    load,
+    print_json,
+    report_warnings,
+)
 
 NAME = "compare"
 HELP = "compare segments: line table, overlaid spectra, fabric wavelength and strike"
@@ -56,7 +65,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="density of the overlaid spectra and the slope (default multitaper)",
     )
     group.add_argument("--nw", type=float, default=4.0, help="multitaper NW (default 4)")
-    group.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
+    add_alpha(group)
     group.add_argument(
         "--band",
         type=band_value,
@@ -71,12 +80,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="LINE",
         help="leave a line or line/segment out of the fabric fit (repeatable)",
     )
-    group.add_argument(
-        "--shortest-wavelength",
-        type=length("--shortest-wavelength"),
-        metavar="LENGTH",
-        help="target shortest wavelength for the windows' aliasing share",
-    )
+    add_shortest_wavelength(group, help="target shortest wavelength for the windows' aliasing share")
     group.add_argument("--window", type=length("--window"), metavar="LENGTH", help="window length")
     group.add_argument("--step", type=length("--step"), metavar="LENGTH", help="window step")
     add_output_arguments(parser)

@@ -19,8 +19,12 @@ REPORT_FOLDER = "report"
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("output")
-    group.add_argument("--out", metavar="DIR", required=True,
-                       help="folder for the demo survey (DIR/survey) and its report (DIR/report)")
+    group.add_argument(
+        "--out",
+        metavar="DIR",
+        required=True,
+        help="folder for the demo survey (DIR/survey) and its report (DIR/report)",
+    )
     group.add_argument("--overwrite", action="store_true", help="replace an earlier demo in DIR")
     group.add_argument("--quiet", action="store_true", help="no progress or warnings on stderr")
     group.add_argument("--json", action="store_true", help="print the report's summary.json on stdout")

@@ -5,7 +5,9 @@ from __future__ import annotations
 import argparse
 
 from .common import (
+    add_alpha,
     add_output_arguments,
+    add_shortest_wavelength,
     add_survey_arguments,
     fraction,
     length,
@@ -72,18 +74,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="LENGTH",
         help="distance between window starts, e.g. 10km (default: a quarter of the window)",
     )
-    group.add_argument(
-        "--shortest-wavelength",
-        type=length("--shortest-wavelength"),
-        metavar="LENGTH",
-        help="shortest wavelength you need to resolve, e.g. 4km (checks station spacing against it)",
+    add_shortest_wavelength(
+        group, help="shortest wavelength you need to resolve, e.g. 4km (checks station spacing against it)"
     )
-    group.add_argument(
-        "--alpha",
-        type=fraction("--alpha"),
-        default=0.05,
-        help="significance level of the red-noise test (default 0.05)",
-    )
+    add_alpha(group, help="significance level of the red-noise test (default 0.05)")
     group.add_argument(
         "--rolloff-share",
         type=fraction("--rolloff-share"),

@@ -4,7 +4,15 @@ from __future__ import annotations
 
 import argparse
 
-from .common import add_output_arguments, add_survey_arguments, length, print_json, report_warnings
+from .common import (
+    add_alpha,
+    add_output_arguments,
+    add_shortest_wavelength,
+    add_survey_arguments,
+    length,
+    print_json,
+    report_warnings,
+)
 
 NAME = "report"
 HELP = "run the whole analysis and write one self-contained HTML report"
@@ -34,15 +42,22 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.set_defaults(gap=None, turn_angle=None, turn_distance=None)
     parser.add_argument("--config", metavar="FILE", help="survey configuration (TOML), e.g. survey.toml")
     group = parser.add_argument_group("analysis (override the configuration)")
-    group.add_argument("--shortest-wavelength", type=length("--shortest-wavelength"), metavar="LENGTH",
-                       help="shortest wavelength to resolve, for every field, e.g. 4km")
-    group.add_argument("--window", type=length("--window"), metavar="LENGTH",
-                       help="length of the along-track windows, e.g. 40km")
-    group.add_argument("--step", type=length("--step"), metavar="LENGTH",
-                       help="distance between window starts, e.g. 10km")
-    group.add_argument("--method", choices=("multitaper", "welch"),
-                       help="density estimate of every segment (default multitaper)")
-    group.add_argument("--alpha", type=float, help="false-alarm probability of the tests (default 0.05)")
+    add_shortest_wavelength(group, help="shortest wavelength to resolve, for every field, e.g. 4km")
+    group.add_argument(
+        "--window",
+        type=length("--window"),
+        metavar="LENGTH",
+        help="length of the along-track windows, e.g. 40km",
+    )
+    group.add_argument(
+        "--step", type=length("--step"), metavar="LENGTH", help="distance between window starts, e.g. 10km"
+    )
+    group.add_argument(
+        "--method",
+        choices=("multitaper", "welch"),
+        help="density estimate of every segment (default multitaper)",
+    )
+    add_alpha(group, default=None, help="false-alarm probability of the tests (default 0.05)")
     add_output_arguments(parser)
     for action in parser._actions:
         if action.dest == "out":
@@ -71,11 +86,14 @@ def configure(args: argparse.Namespace):
 
         # Without a configuration, the fields are the numeric columns the files hold.
         probe = read_surveys(args.survey, crs=args.crs, layer=args.layer)
-        config, notes = config_for_fields(args.survey, probe.fields,
-                                          shortest_wavelength=args.shortest_wavelength)
+        config, notes = config_for_fields(
+            args.survey, probe.fields, shortest_wavelength=args.shortest_wavelength
+        )
         if not config.fields:
-            raise InputError(f"{', '.join(args.survey)}: no field whose kind can be told from its "
-                             "name; write a configuration file naming the fields")
+            raise InputError(
+                f"{', '.join(args.survey)}: no field whose kind can be told from its "
+                "name; write a configuration file naming the fields"
+            )
     changes = {}
     columns = dict(config.columns)
     for key in ("line", "lon", "lat", "time"):
@@ -99,8 +117,9 @@ def configure(args: argparse.Namespace):
     if args.shortest_wavelength is not None:
         from dataclasses import replace
 
-        changes["fields"] = tuple(replace(f, shortest_wavelength=args.shortest_wavelength)
-                                  for f in config.fields)
+        changes["fields"] = tuple(
+            replace(f, shortest_wavelength=args.shortest_wavelength) for f in config.fields
+        )
     if args.alpha is not None and not 0 < args.alpha < 1:
         raise InputError(f"--alpha must be between 0 and 1 (got {args.alpha})")
     return validate(config.with_changes(**changes)), notes
@@ -118,8 +137,10 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json(document)
     else:
-        print(f"{folder.path('report.html')}: {results.config.name}, {len(results.segments)} segments, "
-              f"{len(results.fields)} fields, {len(results.notices)} warnings")
+        print(
+            f"{folder.path('report.html')}: {results.config.name}, {len(results.segments)} segments, "
+            f"{len(results.fields)} fields, {len(results.notices)} warnings"
+        )
         for sentence in document["attention"]:
             print(f"  attention: {sentence}")
     return report_warnings(args, notes + [str(n) for n in results.notices])

@@ -4,7 +4,15 @@ from __future__ import annotations
 
 import argparse
 
-from .common import add_output_arguments, add_survey_arguments, length, load, print_json, report_warnings
+from .common import (
+    add_output_arguments,
+    add_shortest_wavelength,
+    add_survey_arguments,
+    length,
+    load,
+    print_json,
+    report_warnings,
+)
 from .common import fraction as fraction_of
 
 #: argparse type of ``--alias-tolerance`` (the batch command uses it too).
@@ -56,12 +64,7 @@ SHOWN_STRETCH_COLUMNS = (
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_survey_arguments(parser, field="optional")
     target = parser.add_argument_group("targets")
-    target.add_argument(
-        "--shortest-wavelength",
-        type=length("--shortest-wavelength"),
-        metavar="LENGTH",
-        help="shortest wavelength you need to resolve, e.g. 4km",
-    )
+    add_shortest_wavelength(target, help="shortest wavelength you need to resolve, e.g. 4km")
     target.add_argument(
         "--longest-wavelength",
         type=length("--longest-wavelength"),

@@ -5,7 +5,15 @@ from __future__ import annotations
 import argparse
 import re
 
-from .common import add_output_arguments, add_survey_arguments, length, load, print_json, report_warnings
+from .common import (
+    add_alpha,
+    add_output_arguments,
+    add_survey_arguments,
+    length,
+    load,
+    print_json,
+    report_warnings,
+)
 
 NAME = "spectrum"
 HELP = "harmonic table, Fisher and red-noise tests, and spectra of each segment"
@@ -31,7 +39,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         default="harmonic",
         help="density estimate besides the harmonic table (default harmonic)",
     )
-    group.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
+    add_alpha(group)
     group.add_argument(
         "--detrend",
         choices=("linear", "mean"),
@@ -76,8 +84,6 @@ def run(args: argparse.Namespace) -> int:
     from ..outputs import OutputFolder
     from ..tables import text_table
 
-    if not 0 < args.alpha < 1:
-        raise InputError(f"--alpha must be between 0 and 1 (got {args.alpha})")
     loaded = load(args, fields=(args.field,))
     pairs, warnings = resample_field(
         loaded.segments, args.field, spacing=args.spacing, interpolation=args.interpolation
