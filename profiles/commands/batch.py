@@ -8,6 +8,7 @@ from .common import (
     add_alpha,
     add_output_arguments,
     add_shortest_wavelength,
+    add_spacing,
     add_survey_arguments,
     length,
     print_json,
@@ -64,12 +65,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="wavelengths bounding the fall-off fit (default: chosen automatically)",
     )
     analysis = parser.add_argument_group("spectra and windows")
-    analysis.add_argument(
-        "--spacing",
-        type=length("--spacing"),
-        metavar="LENGTH",
-        help="resampling spacing (default: each segment's median spacing)",
-    )
+    add_spacing(analysis)
     add_alpha(analysis)
     analysis.add_argument(
         "--window",

@@ -6,7 +6,10 @@ import argparse
 
 from .common import (
     add_alpha,
+    add_nw,
     add_output_arguments,
+    add_segment_length,
+    add_spacing,
     add_survey_arguments,
     length,
     load,
@@ -40,20 +43,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     group.add_argument(
         "--method", choices=("welch", "multitaper"), default="welch", help="averaging (default welch)"
     )
-    group.add_argument(
-        "--segment-length",
-        type=length("--segment-length"),
-        metavar="LENGTH",
-        help="Welch block length (default half the longest segment)",
-    )
-    group.add_argument("--nw", type=float, default=4.5, help="multitaper NW (default 4.5)")
+    add_segment_length(group, help="Welch block length (default half the longest segment)")
+    add_nw(group, default=4.5)
     add_alpha(group)
-    group.add_argument(
-        "--spacing",
-        type=length("--spacing"),
-        metavar="LENGTH",
-        help="common resampling spacing (default the median station spacing)",
-    )
+    add_spacing(group, help="common resampling spacing (default the median station spacing)")
     sign = group.add_mutually_exclusive_group()
     sign.add_argument(
         "--input-positive-down",

@@ -16,6 +16,12 @@ from ..errors import InputError
 from ..units import parse_length, parse_length_or_multiple
 
 
+def _argument_error(error: InputError, what: str) -> argparse.ArgumentTypeError:
+    """The error's message without its leading option name: argparse puts that in front."""
+    text = str(error)
+    return argparse.ArgumentTypeError(text.removeprefix(f"{what}: "))
+
+
 def length(what: str):
     """argparse type for a length with a unit, in metres."""
 
@@ -23,7 +29,7 @@ def length(what: str):
         try:
             return parse_length(text, what=what)
         except InputError as error:
-            raise argparse.ArgumentTypeError(str(error)) from None
+            raise _argument_error(error, what) from None
 
     parse.__name__ = "length"
     return parse
@@ -37,14 +43,25 @@ def fraction(what: str):
             value = float(text)
         except ValueError:
             raise argparse.ArgumentTypeError(
-                f"{what}: {text!r} is not a number; write a fraction such as 0.01"
+                f"{text!r} is not a number; write a fraction such as 0.01"
             ) from None
         if not 0.0 < value < 1.0:
-            raise argparse.ArgumentTypeError(f"{what}: {text!r} must be a fraction strictly between 0 and 1")
+            raise argparse.ArgumentTypeError(f"{text!r} must be a fraction strictly between 0 and 1")
         return value
 
     parse.__name__ = "fraction"
     return parse
+
+
+def time_bandwidth(text: str) -> float:
+    """argparse type for the multitaper time-bandwidth product NW, a number of at least 1."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; write e.g. 4") from None
+    if not value >= 1.0:  # also refuses nan
+        raise argparse.ArgumentTypeError(f"{text!r} must be at least 1 (2 NW - 1 tapers are used)")
+    return value
 
 
 def add_alpha(
@@ -63,12 +80,32 @@ def add_shortest_wavelength(
     )
 
 
+def add_spacing(group, *, help: str = "resampling spacing (default: each segment's median spacing)") -> None:
+    """``--spacing``: the spacing of the uniform grid the stations are resampled onto."""
+    group.add_argument("--spacing", type=length("--spacing"), metavar="LENGTH", help=help)
+
+
+def add_nw(group, *, default: float = 4.0) -> None:
+    """``--nw``: the multitaper time-bandwidth product (2 NW - 1 tapers)."""
+    group.add_argument(
+        "--nw",
+        type=time_bandwidth,
+        default=default,
+        help=f"multitaper time-bandwidth NW (default {default:g})",
+    )
+
+
+def add_segment_length(group, *, help: str) -> None:
+    """``--segment-length``: the Welch block length."""
+    group.add_argument("--segment-length", type=length("--segment-length"), metavar="LENGTH", help=help)
+
+
 def gap_value(text: str):
     """argparse type for ``--gap``: a multiple (``5x``) or a length (``3km``)."""
     try:
         return parse_length_or_multiple(text, what="--gap")
     except InputError as error:
-        raise argparse.ArgumentTypeError(str(error)) from None
+        raise _argument_error(error, "--gap") from None
 
 
 def add_survey_arguments(parser: argparse.ArgumentParser, *, field: str | None = None) -> None:

@@ -6,6 +6,7 @@ import argparse
 
 from .common import (
     add_alpha,
+    add_nw,
     add_output_arguments,
     add_shortest_wavelength,
     add_survey_arguments,
@@ -64,7 +65,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         default="multitaper",
         help="density of the overlaid spectra and the slope (default multitaper)",
     )
-    group.add_argument("--nw", type=float, default=4.0, help="multitaper NW (default 4)")
+    add_nw(group)
     add_alpha(group)
     group.add_argument(
         "--band",

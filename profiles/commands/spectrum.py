@@ -7,9 +7,11 @@ import re
 
 from .common import (
     add_alpha,
+    add_nw,
     add_output_arguments,
+    add_segment_length,
+    add_spacing,
     add_survey_arguments,
-    length,
     load,
     print_json,
     report_warnings,
@@ -51,21 +53,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="taper of the harmonic table, a scipy.signal.windows name "
         "(default none, so the variance split is exact)",
     )
-    group.add_argument(
-        "--spacing",
-        type=length("--spacing"),
-        metavar="LENGTH",
-        help="resampling spacing (default: each segment's median spacing)",
-    )
+    add_spacing(group)
     group.add_argument("--interpolation", choices=("linear", "cubic"), default="linear")
-    group.add_argument(
-        "--segment-length",
-        type=length("--segment-length"),
-        metavar="LENGTH",
-        help="Welch block length (default a quarter of the segment)",
-    )
+    add_segment_length(group, help="Welch block length (default a quarter of the segment)")
     group.add_argument("--overlap", type=float, default=0.5, help="Welch block overlap (default 0.5)")
-    group.add_argument("--nw", type=float, default=4.0, help="multitaper time-bandwidth NW (default 4)")
+    add_nw(group)
     group.add_argument(
         "--confidence", type=float, default=0.95, help="level of the confidence bounds (default 0.95)"
     )
