@@ -23,6 +23,7 @@ and a harmonic variance is distributed as its expectation times chi2_nu / nu wit
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 from typing import Literal
@@ -209,16 +210,36 @@ def fisher_critical_value(*, m: int, alpha: float = 0.05) -> float:
     Found by Brent's root finding on the exact tail of :func:`fisher_p_value`, which falls
     monotonically from 1 at g = 1/m to 0 at g = 1 (the method used for the published tables,
     e.g. Nowroozi 1967, from memory).
+
+    Notes
+    -----
+    The search is bracketed tightly. The series' first term m (1 - x)^(m-1) is an upper
+    bound on the tail (Bonferroni's inequality), so the approximation
+    x_a = 1 - (alpha/m)^(1/(m-1)) of :func:`fisher_critical_value_approx`, where that term
+    equals alpha, is at or above g_alpha. The second term, about alpha^2/2 at x_a, puts
+    g_alpha near x_a - alpha / (2 (m - 1)); the bracket's lower end is four times that far
+    below x_a, and 1/m (where the tail is 1) whenever the tail there is not above alpha.
     """
+    return _critical_value(_check_m(m), check_probability(alpha, what="alpha"))
+
+
+@functools.lru_cache(maxsize=256)
+def _critical_value(m: int, alpha: float) -> float:
+    """:func:`fisher_critical_value` of checked arguments (kept: a batch meets the same N often)."""
     from scipy.optimize import brentq
 
-    m = _check_m(m)
-    alpha = check_probability(alpha, what="alpha")
+    upper = fisher_critical_value_approx(m=m, alpha=alpha)
+    excess_upper = fisher_p_value(upper, m=m) - alpha
+    if excess_upper >= 0.0:  # the first term alone: exact where g_alpha >= 1/2
+        return float(upper)
+    lower = max(1.0 / m, upper - 2.0 * alpha / (m - 1))
+    if lower > 1.0 / m and fisher_p_value(lower, m=m) <= alpha:
+        lower = 1.0 / m
     return float(
         brentq(
             lambda g: fisher_p_value(g, m=m) - alpha,
-            1.0 / m,
-            1.0,
+            lower,
+            upper,
             xtol=1e-15,
             rtol=4.0 * np.finfo(float).eps,
             maxiter=200,
