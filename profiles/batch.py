@@ -50,9 +50,9 @@ from .batch_task import (
     one_line,
     part_paths,
     read_part_attrs,
-    temporary_name,
 )
 from .errors import InputError, OutputError
+from .outputs import temporary_name
 from .read import TEXT_SUFFIXES, VECTOR_SUFFIXES
 
 SUMMARY = "summary.json"
@@ -142,8 +142,11 @@ def find_survey_files(paths, *, exclude=()) -> Archive:
             names[:] = sorted(n for n in names if not n.startswith(".") and Path(folder, n) not in excluded)
             for name in sorted(files):
                 candidate = Path(folder, name)
-                if (not name.startswith(".") and candidate.suffix.lower() in SEARCH_SUFFIXES
-                        and candidate.is_file()):
+                if (
+                    not name.startswith(".")
+                    and candidate.suffix.lower() in SEARCH_SUFFIXES
+                    and candidate.is_file()
+                ):
                     found.setdefault(candidate)
     if not found:
         raise InputError(
@@ -211,8 +214,11 @@ class BatchSummary:
     @property
     def failures(self) -> list[dict]:
         """``file``, ``reason`` and ``error_type`` of each failed file."""
-        return [{"file": f["file"], "reason": f["reason"], "error_type": f["error_type"]}
-                for f in self.files if f["status"] == "failed"]
+        return [
+            {"file": f["file"], "reason": f["reason"], "error_type": f["error_type"]}
+            for f in self.files
+            if f["status"] == "failed"
+        ]
 
     @property
     def rows(self) -> dict:
@@ -252,16 +258,27 @@ class BatchSummary:
         import pandas as pd
 
         return pd.DataFrame(
-            [{"file": f["file"], "id": f["id"], "status": f["status"], "reason": f.get("reason"),
-              "stations": f.get("stations"), "segments": f.get("segments"), "windows": f.get("windows"),
-              "seconds": (f.get("seconds") or {}).get("total")} for f in self.files],
+            [
+                {
+                    "file": f["file"],
+                    "id": f["id"],
+                    "status": f["status"],
+                    "reason": f.get("reason"),
+                    "stations": f.get("stations"),
+                    "segments": f.get("segments"),
+                    "windows": f.get("windows"),
+                    "seconds": (f.get("seconds") or {}).get("total"),
+                }
+                for f in self.files
+            ],
             columns=["file", "id", "status", "reason", "stations", "segments", "windows", "seconds"],
         )
 
     def __str__(self) -> str:
         counts = self.counts
-        text = ", ".join(f"{name.replace('_', ' ')} {number}" for name, number in counts.items()
-                         if name != "files")
+        text = ", ".join(
+            f"{name.replace('_', ' ')} {number}" for name, number in counts.items() if name != "files"
+        )
         lines = [f"{counts['files']} files: {text} ({self.seconds:.1f} s; results in {self.out})"]
         lines += [f"failed: {f['file']}: {f['reason']}" for f in self.failures]
         if self.interrupted:
@@ -335,9 +352,18 @@ def run_batch(
         elif state is not None:
             records[item.id] = {**state, "status": "skipped"}
         else:
-            tasks.append({"path": str(item.path), "file": item.relative, "id": item.id, "size": item.size,
-                          "mtime_ns": item.mtime_ns, "out": str(out.resolve()),
-                          "options": options.to_json(), "options_key": key})
+            tasks.append(
+                {
+                    "path": str(item.path),
+                    "file": item.relative,
+                    "id": item.id,
+                    "size": item.size,
+                    "mtime_ns": item.mtime_ns,
+                    "out": str(out.resolve()),
+                    "options": options.to_json(),
+                    "options_key": key,
+                }
+            )
     if conflicts:
         raise OutputError(
             f"{out}: holds results of {len(conflicts)} files analysed with other options "
@@ -355,11 +381,22 @@ def run_batch(
         interrupted = True
         raise
     finally:
-        files = tuple(records.get(f.id) or {"file": f.relative, "id": f.id, "status": "not run",
-                                            "reason": None, "error_type": None}
-                      for f in archive.files)
-        summary = BatchSummary(out, archive.root, options, files, where, count,
-                               time.perf_counter() - started, interrupted, tuple(warnings))
+        files = tuple(
+            records.get(f.id)
+            or {"file": f.relative, "id": f.id, "status": "not run", "reason": None, "error_type": None}
+            for f in archive.files
+        )
+        summary = BatchSummary(
+            out,
+            archive.root,
+            options,
+            files,
+            where,
+            count,
+            time.perf_counter() - started,
+            interrupted,
+            tuple(warnings),
+        )
         if interrupted or len(records) == len(archive.files):
             folder.json(SUMMARY, summary.to_json())
     return summary
@@ -372,8 +409,9 @@ def _collect(client, tasks: list[dict], records: dict, *, progress: bool) -> Non
     from .progress import progress as bar
 
     run = uuid.uuid4().hex[:8]
-    futures = client.map(analyse_file, tasks, key=[f"profiles-batch-{run}-{t['id']}" for t in tasks],
-                         pure=False)
+    futures = client.map(
+        analyse_file, tasks, key=[f"profiles-batch-{run}-{t['id']}" for t in tasks], pure=False
+    )
     owner = {future.key: task for future, task in zip(futures, tasks, strict=True)}
     pending = as_completed(futures)
     del futures  # each result is released as soon as it is gathered
@@ -383,9 +421,12 @@ def _collect(client, tasks: list[dict], records: dict, *, progress: bool) -> Non
             records[task["id"]] = future.result()
         except Exception as error:  # the task itself never raises: the worker was lost
             records[task["id"]] = {
-                "file": task["file"], "id": task["id"], "status": "failed",
+                "file": task["file"],
+                "id": task["id"],
+                "status": "failed",
                 "reason": f"{type(error).__name__}: {one_line(error)}",
-                "error_type": type(error).__name__, "unexpected": True,
+                "error_type": type(error).__name__,
+                "unexpected": True,
             }
 
 
@@ -408,8 +449,13 @@ def dask_client(*, workers: int, scheduler: str | None):
     # ":0": the scheduler's HTTP server on any free port, so two clusters never clash.
     # Worker logs are silenced: a worker that loses the scheduler while the cluster closes
     # logs a traceback, and what goes wrong with a file is in its record anyway.
-    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                           dashboard_address=":0", silence_logs=logging.CRITICAL)
+    cluster = LocalCluster(
+        n_workers=workers,
+        threads_per_worker=1,
+        processes=True,
+        dashboard_address=":0",
+        silence_logs=logging.CRITICAL,
+    )
     try:
         client = Client(cluster)
         try:
@@ -457,8 +503,9 @@ def _check_summary(out: Path, options: BatchOptions, overwrite: bool) -> None:
             f"{path}: exists and is not a batch summary; use --overwrite to replace it"
         ) from None
     if recorded != options.to_json():
-        changed = sorted(k for k in set(recorded) | set(options.to_json())
-                         if recorded.get(k) != options.to_json().get(k))
+        changed = sorted(
+            k for k in set(recorded) | set(options.to_json()) if recorded.get(k) != options.to_json().get(k)
+        )
         raise OutputError(
             f"{out}: holds a batch run with other options ({', '.join(changed)}); "
             f"use --overwrite to redo it, or another --out folder"
@@ -478,8 +525,10 @@ def _orphans(out: Path, archive: Archive) -> list[str]:
     others = [p.name for p in (out / SEGMENTS).glob("part-*.parquet") if p.name not in known]
     if not others:
         return []
-    return [f"{out / SEGMENTS}: {len(others)} parts belong to no file of this run (e.g. {others[0]}); "
-            f"remove them, or they are read with the rest"]
+    return [
+        f"{out / SEGMENTS}: {len(others)} parts belong to no file of this run (e.g. {others[0]}); "
+        f"remove them, or they are read with the rest"
+    ]
 
 
 def _cpus() -> int:
@@ -494,8 +543,18 @@ def _versions() -> dict:
     from importlib.metadata import PackageNotFoundError, version
 
     found = {}
-    for name in ("profiles", "numpy", "scipy", "pandas", "pyproj", "shapely", "geopandas", "pyarrow",
-                 "dask", "distributed"):
+    for name in (
+        "profiles",
+        "numpy",
+        "scipy",
+        "pandas",
+        "pyproj",
+        "shapely",
+        "geopandas",
+        "pyarrow",
+        "dask",
+        "distributed",
+    ):
         try:
             found[name] = version(name)
         except PackageNotFoundError:

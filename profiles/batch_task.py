@@ -198,11 +198,6 @@ def part_paths(out: str | Path, file_id: str) -> tuple[Path, Path]:
     return out / SEGMENTS / part_name(file_id), out / WINDOWS / part_name(file_id)
 
 
-def temporary_name(final: Path) -> Path:
-    """The temporary name :func:`profiles.outputs.write_with` uses for ``final``."""
-    return final.with_name(f".{final.stem}.part{final.suffix}")
-
-
 def analyse_file(task: dict) -> dict:
     """Analyse one file and write its parts; never raises for a bad file.
 

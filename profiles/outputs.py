@@ -57,16 +57,22 @@ def write_atomic(path: str | Path, data: bytes) -> Path:
     return path
 
 
+def temporary_name(final: str | Path) -> Path:
+    """The temporary path :func:`write_with` writes ``final`` to first: ``.STEM.partSUFFIX``
+    in the same folder (the suffix is kept, since GIS writers choose the format from it)."""
+    final = Path(final)
+    return final.with_name(f".{final.stem}.part{final.suffix}")
+
+
 def write_with(path: str | Path, writer) -> Path:
     """Call ``writer(temporary_path)`` and rename the result into place (for GIS writers that
     need a file name rather than bytes).
 
-    The temporary path is ``.STEM.partSUFFIX`` in the same folder (the suffix is kept, since GIS
-    writers choose the format from it); it is removed on any exception.
+    The temporary path is :func:`temporary_name`; it is removed on any exception.
     """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    temporary = path.with_name(f".{path.stem}.part{path.suffix}")
+    temporary = temporary_name(path)
     try:
         temporary.unlink(missing_ok=True)
         writer(temporary)

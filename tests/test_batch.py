@@ -19,8 +19,9 @@ import pytest
 from conftest import GEOD, walk, write_csv
 
 from profiles.batch import file_id, find_survey_files, run_batch
-from profiles.batch_task import BatchOptions, analyse_file, part_paths, temporary_name
+from profiles.batch_task import BatchOptions, analyse_file, part_paths
 from profiles.cli import main
+from profiles.outputs import temporary_name
 
 FIELD = "depth_m"
 #: Options shared by every run here: an 8 km window holds 32 samples at 250 m.
@@ -34,8 +35,9 @@ def scheduler():
 
     from distributed import LocalCluster
 
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
-                           silence_logs=logging.ERROR)
+    cluster = LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0", silence_logs=logging.ERROR
+    )
     try:
         yield cluster.scheduler_address
     finally:
@@ -65,8 +67,11 @@ def archive(tmp_path_factory):
     """Three good files (one in a sub-folder, one with a gap) and a file that cannot be read."""
     root = tmp_path_factory.mktemp("archive")
     (root / "leg2").mkdir()
-    good = [_survey(root / "north.csv", 1), _survey(root / "south.csv", 2, gap=True),
-            _survey(root / "leg2" / "east.csv", 3)]
+    good = [
+        _survey(root / "north.csv", 1),
+        _survey(root / "south.csv", 2, gap=True),
+        _survey(root / "leg2" / "east.csv", 3),
+    ]
     (root / "broken.csv").write_text("name,east_ish,depth\nA,1,2\nA,2,3\n")
     (root / "notes.json").write_text("{}")  # not picked up by a folder search
     return root, [Path(p) for p in good]
@@ -135,16 +140,23 @@ def test_segments_equal_the_spacing_and_spectrum_commands(first_run, archive, ca
     for path in good:
         relative = path.relative_to(root).as_posix()
         part = batch[batch["file"] == relative].reset_index(drop=True)
-        status, text, _ = run(capsys, "spacing", path, "--field", FIELD, "--shortest-wavelength", "2km",
-                              "--json", "--quiet")
+        status, text, _ = run(
+            capsys, "spacing", path, "--field", FIELD, "--shortest-wavelength", "2km", "--json", "--quiet"
+        )
         assert status == 0
         spacing = json.loads(text)["segments"]
         assert len(part) == len(spacing) > 0
         for name in spacing[0]:
             expected = [row[name] for row in spacing]
             if name == "falloff":  # nested in JSON, falloff_* columns in the table
-                for key in ("model", "beta", "beta_err", "depth_km", "depth_err_km",
-                            "noise_floor_per_cycle_per_km"):
+                for key in (
+                    "model",
+                    "beta",
+                    "beta_err",
+                    "depth_km",
+                    "depth_err_km",
+                    "noise_floor_per_cycle_per_km",
+                ):
                     assert _values(part, f"falloff_{key}") == [(f or {}).get(key) for f in expected], key
                 continue
             assert _values(part, name) == expected, name
@@ -177,8 +189,9 @@ def test_windows_equal_the_library_window_table(first_run, archive):
     for path in good:
         segments = build_segments(read_survey(path, fields=(FIELD,)))
         pairs, _ = resample_field(segments, FIELD)
-        expected = along_track_windows([u for _, u in pairs], window=8000.0,
-                                       shortest_wavelength=2000.0).to_frame()
+        expected = along_track_windows(
+            [u for _, u in pairs], window=8000.0, shortest_wavelength=2000.0
+        ).to_frame()
         got = windows[windows["file"] == path.relative_to(root).as_posix()].reset_index(drop=True)
         assert len(got) == len(expected) > 0
         for name in expected.columns:
@@ -250,9 +263,16 @@ def test_failure_inside_the_writer_leaves_no_part(archive, tmp_path, monkeypatch
     _, good = archive
     out = tmp_path / "out"
     (item,) = find_survey_files([good[0]]).files
-    task = {"path": str(item.path), "file": item.relative, "id": item.id, "size": item.size,
-            "mtime_ns": item.mtime_ns, "out": str(out), "options": OPTIONS.to_json(),
-            "options_key": OPTIONS.key()}
+    task = {
+        "path": str(item.path),
+        "file": item.relative,
+        "id": item.id,
+        "size": item.size,
+        "mtime_ns": item.mtime_ns,
+        "out": str(out),
+        "options": OPTIONS.to_json(),
+        "options_key": OPTIONS.key(),
+    }
     written = []
 
     def fail_on_second_part(self, path, **kwargs):  # the disk fills up half-way through a part
@@ -296,9 +316,18 @@ def test_unexpected_error_is_recorded_with_its_type(archive, tmp_path, monkeypat
         raise ZeroDivisionError("float division by zero")
 
     monkeypatch.setattr(profiles.spacing, "audit_spacing", broken)
-    record = analyse_file({"path": str(item.path), "file": item.relative, "id": item.id, "size": item.size,
-                           "mtime_ns": item.mtime_ns, "out": str(tmp_path), "options": OPTIONS.to_json(),
-                           "options_key": OPTIONS.key()})
+    record = analyse_file(
+        {
+            "path": str(item.path),
+            "file": item.relative,
+            "id": item.id,
+            "size": item.size,
+            "mtime_ns": item.mtime_ns,
+            "out": str(tmp_path),
+            "options": OPTIONS.to_json(),
+            "options_key": OPTIONS.key(),
+        }
+    )
     assert record["status"] == "failed" and record["unexpected"] is True
     assert record["reason"] == "ZeroDivisionError: float division by zero"
     assert record["error_type"] == "ZeroDivisionError"
@@ -317,8 +346,9 @@ def test_local_cluster_text_output_and_no_progress_off_a_terminal(archive, tmp_p
 
 def test_every_file_failing_is_an_error(archive, tmp_path, capsys):
     root, _ = archive
-    status, _, err = run(capsys, "batch", root / "broken.csv", *ARGS, "--out", tmp_path / "out",
-                         "--workers", "1")
+    status, _, err = run(
+        capsys, "batch", root / "broken.csv", *ARGS, "--out", tmp_path / "out", "--workers", "1"
+    )
     assert status == 2 and err.startswith(f"profiles: error: {root / 'broken.csv'}: no longitude column")
     assert json.loads((tmp_path / "out" / "summary.json").read_text())["counts"]["failed"] == 1
 
@@ -343,8 +373,20 @@ def test_file_ids_are_stable_and_distinct():
 def test_usage_errors(archive, tmp_path, capsys):
     root, _ = archive
     with pytest.raises(SystemExit) as stop:
-        main(["batch", str(root), "--field", FIELD, "--out", str(tmp_path), "--workers", "1",
-              "--scheduler", "tcp://127.0.0.1:1"])
+        main(
+            [
+                "batch",
+                str(root),
+                "--field",
+                FIELD,
+                "--out",
+                str(tmp_path),
+                "--workers",
+                "1",
+                "--scheduler",
+                "tcp://127.0.0.1:1",
+            ]
+        )
     assert stop.value.code == 2
     status, _, err = run(capsys, "batch", root, "--field", FIELD)
     assert status == 2 and "--out DIR is required" in err
@@ -377,13 +419,23 @@ def test_a_track_across_the_antimeridian_is_cut_there(tmp_path):
 
     lon, lat = walk(179.7, -20.0, [(90.0, 160, 250.0)])  # 40 km east across 180 degrees
     depth = 3000 + 40 * np.sin(np.arange(lon.size) / 5.0)
-    path = write_csv(tmp_path / "dateline.csv", {"line": ["D1"] * lon.size, "lon": lon, "lat": lat,
-                                                   FIELD: depth})
+    path = write_csv(
+        tmp_path / "dateline.csv", {"line": ["D1"] * lon.size, "lon": lon, "lat": lat, FIELD: depth}
+    )
     (item,) = find_survey_files([path]).files
     out = tmp_path / "out"
-    record = analyse_file({"path": str(item.path), "file": item.relative, "id": item.id, "size": item.size,
-                           "mtime_ns": item.mtime_ns, "out": str(out), "options": OPTIONS.to_json(),
-                           "options_key": OPTIONS.key()})
+    record = analyse_file(
+        {
+            "path": str(item.path),
+            "file": item.relative,
+            "id": item.id,
+            "size": item.size,
+            "mtime_ns": item.mtime_ns,
+            "out": str(out),
+            "options": OPTIONS.to_json(),
+            "options_key": OPTIONS.key(),
+        }
+    )
     assert record["status"] == "done", record["reason"]
     (line,) = geopandas.read_parquet(part_paths(out, item.id)[0]).geometry
     assert line.geom_type == "MultiLineString"

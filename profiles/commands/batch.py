@@ -33,8 +33,12 @@ is started and closed; --scheduler uses a running cluster instead."""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    add_survey_arguments(parser, field="required")
-    _name_paths(parser)
+    add_survey_arguments(
+        parser,
+        field="required",
+        metavar="PATH",
+        paths_help="survey files, or folders to search for them (CSV/TSV, GeoPackage, ...)",
+    )
     target = parser.add_argument_group("targets")
     add_shortest_wavelength(target, help="shortest wavelength you need to resolve, e.g. 4km")
     target.add_argument(
@@ -90,14 +94,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--scheduler", metavar="ADDRESS", help="use a running Dask scheduler, e.g. tcp://10.0.0.5:8786"
     )
     add_output_arguments(parser)
-
-
-def _name_paths(parser: argparse.ArgumentParser) -> None:
-    """The shared positional argument, named and explained for files and folders."""
-    for action in parser._actions:
-        if action.dest == "survey":
-            action.metavar = "PATH"
-            action.help = "survey files, or folders to search for them (CSV/TSV, GeoPackage, ...)"
 
 
 def run(args: argparse.Namespace) -> int:

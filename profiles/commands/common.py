@@ -108,17 +108,22 @@ def gap_value(text: str):
         raise _argument_error(error, "--gap") from None
 
 
-def add_survey_arguments(parser: argparse.ArgumentParser, *, field: str | None = None) -> None:
+SURVEY_FILES = "survey files: CSV/TSV, GeoPackage, GeoJSON, Shapefile or GeoParquet"
+
+
+def add_survey_arguments(
+    parser: argparse.ArgumentParser,
+    *,
+    field: str | None = None,
+    metavar: str = "SURVEY",
+    paths_help: str = SURVEY_FILES,
+) -> None:
     """Survey files, column names, CRS, line selection and segmentation options.
 
-    ``field``: None (no field option), "optional" or "required".
+    ``field``: None (no field option), "optional" or "required"; ``metavar`` and
+    ``paths_help`` name and explain the positional survey paths.
     """
-    parser.add_argument(
-        "survey",
-        nargs="+",
-        metavar="SURVEY",
-        help="survey files: CSV/TSV, GeoPackage, GeoJSON, Shapefile or GeoParquet",
-    )
+    parser.add_argument("survey", nargs="+", metavar=metavar, help=paths_help)
     if field == "required":
         parser.add_argument("--field", required=True, help="field (column) to analyse, e.g. depth_m")
     elif field == "optional":
