@@ -363,6 +363,11 @@ def compare_survey(
     shortest_wavelength: float | None = None,
     window: float | None = None,
     step: float | None = None,
+    spacing: float | None = None,
+    interpolation: str = "linear",
+    segment_length: float | None = None,
+    overlap: float = 0.5,
+    confidence: float = 0.95,
 ) -> SurveyComparison:
     """Analyse every segment with one frozen set of options and compare them.
 
@@ -380,17 +385,28 @@ def compare_survey(
         Lines or ``line/segment`` labels left out of the fabric fit.
     shortest_wavelength, window, step : float, optional
         Windows (m) behind the aliasing share; see :func:`profiles.windows.along_track_windows`.
+    spacing, interpolation : optional
+        Resampling (see :func:`profiles.analysis.resample_field`); each segment's median
+        station step by default.
+    segment_length, overlap, confidence : optional
+        Welch block (m) and overlap, and the density's confidence level (see
+        :func:`profiles.analysis.analyse_segment`).
     """
     from .analysis import analyse_segment, resample_field
     from .windows import along_track_windows
 
-    pairs, warnings = resample_field(segments, field)
+    pairs, warnings = resample_field(segments, field, spacing=spacing, interpolation=interpolation)
     if not pairs:
         raise InputError(f"no segment of {field} is long enough to compare")
-    spectra = [
-        (segment, analyse_segment(segment, uniform, method=method, nw=nw, alpha=alpha))
-        for segment, uniform in pairs
-    ]
+    options = dict(
+        method=method,
+        nw=nw,
+        alpha=alpha,
+        segment_length=segment_length,
+        overlap=overlap,
+        confidence=confidence,
+    )
+    spectra = [(segment, analyse_segment(segment, uniform, **options)) for segment, uniform in pairs]
     windows = None
     share: dict[str, float] = {}
     try:

@@ -42,8 +42,12 @@ Paths are relative to the configuration file. Lengths take units (``"250m"``, ``
     alpha = 0.05                       # false-alarm probability of every test
 
     [spectrum]
-    method = "multitaper"              # multitaper or welch (a quarter of each segment per block)
-    nw = 4.0                           # multitaper time-bandwidth product
+    method = "multitaper"              # multitaper or welch
+    nw = 4.0                           # multitaper time-bandwidth product (at least 1)
+    # block = "40km"                   # Welch block (default: a quarter of each segment)
+    # confidence = 0.95                # level of the density's confidence bounds
+    # spacing = "250m"                 # resampling spacing (default: each segment's median step)
+    # interpolation = "linear"         # linear or cubic, after the anti-alias filter
 
     [coherence]                        # optional; bathymetry against free-air gravity by default
     input = "depth_m"
@@ -71,6 +75,7 @@ FieldKindName = Literal["bathymetry", "potential_field"]
 Anomaly = Literal["free_air", "bouguer", "magnetic", "other"]
 SpectrumMethod = Literal["multitaper", "welch"]
 CoherenceMethod = Literal["welch", "multitaper"]
+Interpolation = Literal["linear", "cubic"]
 
 #: Keys each table accepts, in the order the written configuration lists them.
 KEYS: dict[str, tuple[str, ...]] = {
@@ -90,7 +95,7 @@ KEYS: dict[str, tuple[str, ...]] = {
     ),
     "windows": ("window", "step"),
     "significance": ("alpha",),
-    "spectrum": ("method", "nw"),
+    "spectrum": ("method", "nw", "block", "confidence", "spacing", "interpolation"),
     "coherence": ("enabled", "input", "output", "method", "block", "nw", "load_depth"),
 }
 TABLES = ("survey", "columns", "segments", "fields", "windows", "significance", "spectrum", "coherence")
@@ -192,6 +197,14 @@ class SurveyConfig:
         Density estimate of every segment: ``"multitaper"`` or ``"welch"``.
     nw : float
         Multitaper time-bandwidth product.
+    welch_block : float or None
+        Welch block length, metres (None: a quarter of each segment).
+    confidence : float
+        Level of the density's confidence bounds.
+    spacing : float or None
+        Resampling spacing, metres (None: each segment's median station step).
+    interpolation : str
+        ``"linear"`` or ``"cubic"`` (after the anti-alias filter).
     coherence : CoherenceConfig or None
         The cross-spectrum to compute, if any.
     coherence_enabled : bool
@@ -215,6 +228,10 @@ class SurveyConfig:
     alpha: float = 0.05
     spectrum_method: str = "multitaper"
     nw: float = 4.0
+    welch_block: float | None = None
+    confidence: float = 0.95
+    spacing: float | None = None
+    interpolation: str = "linear"
     coherence: CoherenceConfig | None = None
     coherence_enabled: bool = True
     source: str = "command line"
@@ -305,7 +322,12 @@ def parse_config(document: dict, *, base: str | Path, source: str) -> SurveyConf
         alpha=reader.number(significance, "significance", "alpha", low=0.0, high=1.0, default=0.05,
                             open_high=True),
         spectrum_method=reader.choice(spectrum, "spectrum", "method", SpectrumMethod) or "multitaper",
-        nw=reader.number(spectrum, "spectrum", "nw", low=0.5, high=50.0, default=4.0),
+        nw=reader.number(spectrum, "spectrum", "nw", low=1.0, high=50.0, default=4.0, open_low=False),
+        welch_block=reader.length(spectrum, "spectrum", "block"),
+        confidence=reader.number(spectrum, "spectrum", "confidence", low=0.0, high=1.0, default=0.95,
+                                 open_high=True),
+        spacing=reader.length(spectrum, "spectrum", "spacing"),
+        interpolation=reader.choice(spectrum, "spectrum", "interpolation", Interpolation) or "linear",
         source=source,
     )
     enabled = True
@@ -422,7 +444,7 @@ def _coherence(reader: _Reader, table: dict, config: SurveyConfig) -> CoherenceC
         output=pair_output,
         method=reader.choice(table, "coherence", "method", CoherenceMethod) or "welch",
         block=reader.length(table, "coherence", "block"),
-        nw=reader.number(table, "coherence", "nw", low=0.5, high=50.0, default=4.5),
+        nw=reader.number(table, "coherence", "nw", low=1.0, high=50.0, default=4.5, open_low=False),
         load_depth=reader.length(table, "coherence", "load_depth"),
     )
 
@@ -661,7 +683,14 @@ def _to_toml(config: SurveyConfig, relative_to) -> str:
         ])
     table("windows", [("window", length(config.window)), ("step", length(config.step))])
     table("significance", [("alpha", _value(config.alpha))])
-    table("spectrum", [("method", _value(config.spectrum_method)), ("nw", _value(config.nw))])
+    table("spectrum", [
+        ("method", _value(config.spectrum_method)),
+        ("nw", _value(config.nw)),
+        ("block", length(config.welch_block)),
+        ("confidence", _value(config.confidence)),
+        ("spacing", length(config.spacing)),
+        ("interpolation", _value(config.interpolation)),
+    ])
     if config.coherence is not None:
         pair = config.coherence
         table("coherence", [

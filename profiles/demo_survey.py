@@ -969,6 +969,8 @@ def config_text() -> str:
             "# Density of every segment: multitaper or welch.",
             'method = "multitaper"',
             "nw = 4.0",
+            "# Resampling spacing (default: each segment's median station step).",
+            '# spacing = "250m"',
             "",
             "[coherence]",
             "# Free-air gravity (output) against depth (input); the density contrast of an",

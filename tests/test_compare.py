@@ -73,6 +73,20 @@ def test_outlier_segment_is_left_out_and_named():
     assert result.fabric.wavelength == pytest.approx(FABRIC_WAVELENGTH, rel=0.03)
 
 
+def test_resampling_and_welch_options_reach_every_segment():
+    # The same fabric seen at a coarser common spacing: 400 m is still > 20 samples per
+    # 10 km cycle, so the fit holds; every segment's grid has the spacing asked for, and the
+    # Welch density its block (a spacing option that did not reach the analysis would fail).
+    survey = fabric_survey([80.0, 115.0, 150.0, 185.0])
+    result = compare_survey(build_segments(survey), field="depth_m", method="welch", spacing=400.0,
+                            segment_length=20_000.0, confidence=0.9)
+    assert {spectrum.uniform.spacing for _, spectrum in result.spectra} == {400.0}
+    assert result.fabric.wavelength == pytest.approx(FABRIC_WAVELENGTH, rel=0.03)
+    for _, spectrum in result.spectra:
+        assert spectrum.density.confidence == 0.9
+        assert spectrum.density.segment_length == pytest.approx(20_000.0, abs=400.0)
+
+
 def test_fabric_refused_when_azimuths_span_too_little():
     # Issue: refuse with a clear message when the azimuths span less than 20 degrees.
     survey = fabric_survey([100.0, 110.0])
@@ -101,6 +115,11 @@ def test_compare_command_json(tmp_path, capsys):
                                   "strike_err_deg", "n_segments", "rms_misfit_km"}
     for name in ("compare.csv", "spectra.png", "fabric.png", "fabric_segments.csv"):
         assert (tmp_path / "o" / name).stat().st_size > 0
+    # The resampling and Welch options from the command line (checked in the library above).
+    assert main(["compare", path, "--field", "depth_m", "--json", "--method", "welch", "--spacing", "400m",
+                 "--segment-length", "20km", "--confidence", "0.9"]) == 0
+    again = json.loads(capsys.readouterr().out)
+    assert again["fabric"]["wavelength_km"] == pytest.approx(doc["fabric"]["wavelength_km"], rel=0.03)
 
 
 def test_coherence_command_json_and_refusals(tmp_path, capsys):

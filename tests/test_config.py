@@ -38,7 +38,9 @@ def test_demo_configuration_reads_as_written():
 
 
 def test_written_configuration_reads_back_to_the_same_values(tmp_path):
-    config = load_config(DEMO / "survey.toml").with_changes(lines=("L01", "L05"), gap=("length", 3000.0))
+    config = load_config(DEMO / "survey.toml").with_changes(
+        lines=("L01", "L05"), gap=("length", 3000.0), welch_block=20000.0, confidence=0.9, spacing=250.0,
+        interpolation="cubic")
     changed = replace(config.fields[1], fabric_band=(5000.0, 40000.0), fabric_exclude=("L07",),
                       source_depth=True)
     config = config.with_changes(fields=(config.fields[0], changed, config.fields[2]))
@@ -92,6 +94,11 @@ BAD = [
     (lambda d: d["significance"].update(alpha=1.5), ["[significance] alpha", "(0, 1)"]),
     (lambda d: d["significance"].update(alpha="0.05"), ["[significance] alpha", "number"]),
     (lambda d: d["spectrum"].update(method="wavelet"), ["[spectrum] method", "multitaper"]),
+    # NW >= 1: with K = 2 NW - 1 tapers, NW < 1 leaves none (Percival and Walden 1993, from memory).
+    (lambda d: d["spectrum"].update(nw=0.5), ["[spectrum] nw", "[1, 50]"]),
+    (lambda d: d["spectrum"].update(confidence=1.0), ["[spectrum] confidence", "(0, 1)"]),
+    (lambda d: d["spectrum"].update(spacing="250"), ["[spectrum] spacing", "no unit"]),
+    (lambda d: d["spectrum"].update(interpolation="nearest"), ["[spectrum] interpolation", "cubic"]),
     (lambda d: d["windows"].update(step="50km"), ["step", "longer than the window"]),
     (lambda d: d["survey"].update(inputs=7), ["[survey] inputs", "list"]),
     (lambda d: d.setdefault("segments", {}).update(gap="0.5x"), ["gap", "greater than 1"]),

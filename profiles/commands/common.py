@@ -85,6 +85,23 @@ def add_spacing(group, *, help: str = "resampling spacing (default: each segment
     group.add_argument("--spacing", type=length("--spacing"), metavar="LENGTH", help=help)
 
 
+def add_interpolation(group) -> None:
+    """``--interpolation``: linear or cubic resampling (after the anti-alias filter)."""
+    group.add_argument(
+        "--interpolation", choices=("linear", "cubic"), default="linear", help="resampling (default linear)"
+    )
+
+
+def add_confidence(group) -> None:
+    """``--confidence``: the level of a density's confidence bounds."""
+    group.add_argument(
+        "--confidence",
+        type=fraction("--confidence"),
+        default=0.95,
+        help="level of the confidence bounds (default 0.95)",
+    )
+
+
 def add_nw(group, *, default: float = 4.0) -> None:
     """``--nw``: the multitaper time-bandwidth product (2 NW - 1 tapers)."""
     group.add_argument(

@@ -6,9 +6,13 @@ import argparse
 
 from .common import (
     add_alpha,
+    add_confidence,
+    add_interpolation,
     add_nw,
     add_output_arguments,
+    add_segment_length,
     add_shortest_wavelength,
+    add_spacing,
     add_survey_arguments,
     length,
     load,
@@ -67,6 +71,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     add_nw(group)
     add_alpha(group)
+    add_spacing(group)
+    add_interpolation(group)
+    add_segment_length(group, help="Welch block length (default a quarter of the segment)")
+    add_confidence(group)
     group.add_argument(
         "--band",
         type=band_value,
@@ -107,6 +115,10 @@ def run(args: argparse.Namespace) -> int:
         shortest_wavelength=args.shortest_wavelength,
         window=args.window,
         step=args.step,
+        spacing=args.spacing,
+        interpolation=args.interpolation,
+        segment_length=args.segment_length,
+        confidence=args.confidence,
     )
     warnings = list(loaded.warnings) + list(result.warnings)
     document = {

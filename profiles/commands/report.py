@@ -8,6 +8,7 @@ from .common import (
     add_alpha,
     add_output_arguments,
     add_shortest_wavelength,
+    add_spacing,
     add_survey_arguments,
     length,
     print_json,
@@ -58,6 +59,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="density estimate of every segment (default multitaper)",
     )
     add_alpha(group, default=None, help="false-alarm probability of the tests (default 0.05)")
+    add_spacing(group, help="resampling spacing of every field (default: each segment's median step)")
     add_output_arguments(parser)
     for action in parser._actions:
         if action.dest == "out":
@@ -101,7 +103,7 @@ def configure(args: argparse.Namespace):
         if value:
             columns[key] = value
     changes["columns"] = columns
-    for key in ("crs", "layer", "window", "step", "alpha"):
+    for key in ("crs", "layer", "window", "step", "alpha", "spacing"):
         if getattr(args, key) is not None:
             changes[key] = getattr(args, key)
     if args.lines:

@@ -7,6 +7,8 @@ import re
 
 from .common import (
     add_alpha,
+    add_confidence,
+    add_interpolation,
     add_nw,
     add_output_arguments,
     add_segment_length,
@@ -54,13 +56,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "(default none, so the variance split is exact)",
     )
     add_spacing(group)
-    group.add_argument("--interpolation", choices=("linear", "cubic"), default="linear")
+    add_interpolation(group)
     add_segment_length(group, help="Welch block length (default a quarter of the segment)")
     group.add_argument("--overlap", type=float, default=0.5, help="Welch block overlap (default 0.5)")
     add_nw(group)
-    group.add_argument(
-        "--confidence", type=float, default=0.95, help="level of the confidence bounds (default 0.95)"
-    )
+    add_confidence(group)
     add_output_arguments(parser)
 
 

@@ -388,6 +388,10 @@ def _field(config, item, segments, notices) -> FieldResults:
         shortest_wavelength=item.shortest_wavelength,
         window=config.window,
         step=config.step,
+        spacing=config.spacing,
+        interpolation=config.interpolation,
+        segment_length=config.welch_block,
+        confidence=config.confidence,
     )
     windows = comparison.windows
     risky = risky_windows_text(windows) if windows is not None and len(windows) else ""
