@@ -134,13 +134,15 @@ def add_survey_arguments(
     field: str | None = None,
     metavar: str = "SURVEY",
     paths_help: str = SURVEY_FILES,
+    paths_required: bool = True,
 ) -> None:
     """Survey files, column names, CRS, line selection and segmentation options.
 
     ``field``: None (no field option), "optional" or "required"; ``metavar`` and
-    ``paths_help`` name and explain the positional survey paths.
+    ``paths_help`` name and explain the positional survey paths, which may be left out when
+    ``paths_required`` is False (they come from elsewhere, e.g. a configuration).
     """
-    parser.add_argument("survey", nargs="+", metavar=metavar, help=paths_help)
+    parser.add_argument("survey", nargs="+" if paths_required else "*", metavar=metavar, help=paths_help)
     if field == "required":
         parser.add_argument("--field", required=True, help="field (column) to analyse, e.g. depth_m")
     elif field == "optional":
@@ -183,11 +185,17 @@ def add_survey_arguments(
     )
 
 
-def add_output_arguments(parser: argparse.ArgumentParser) -> None:
+def add_output_arguments(
+    parser: argparse.ArgumentParser,
+    *,
+    out_help: str = "write tables (CSV) and figures into DIR",
+    out_required: bool = False,
+    json_help: str = "print one JSON document on stdout",
+) -> None:
     """``--json``, ``--out``, ``--overwrite``, ``--quiet``, ``--strict``."""
     group = parser.add_argument_group("output")
-    group.add_argument("--json", action="store_true", help="print one JSON document on stdout")
-    group.add_argument("--out", metavar="DIR", help="write tables (CSV) and figures into DIR")
+    group.add_argument("--json", action="store_true", help=json_help)
+    group.add_argument("--out", metavar="DIR", required=out_required, help=out_help)
     group.add_argument("--overwrite", action="store_true", help="replace existing outputs in DIR")
     group.add_argument("--quiet", action="store_true", help="no progress or warnings on stderr")
     group.add_argument("--strict", action="store_true", help="exit with status 1 when there are warnings")

@@ -34,11 +34,10 @@ by a qualified surveyor."""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    add_survey_arguments(parser)
-    for action in parser._actions:  # survey files may come from the configuration instead
-        if action.dest == "survey":
-            action.nargs = "*"
-            action.help = "survey files (default: the inputs of --config)"
+    # Survey files may come from the configuration instead.
+    add_survey_arguments(
+        parser, paths_help="survey files (default: the inputs of --config)", paths_required=False
+    )
     # None means "not given": the configuration's value (or the library default) applies.
     parser.set_defaults(gap=None, turn_angle=None, turn_distance=None)
     parser.add_argument("--config", metavar="FILE", help="survey configuration (TOML), e.g. survey.toml")
@@ -60,13 +59,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     add_alpha(group, default=None, help="false-alarm probability of the tests (default 0.05)")
     add_spacing(group, help="resampling spacing of every field (default: each segment's median step)")
-    add_output_arguments(parser)
-    for action in parser._actions:
-        if action.dest == "out":
-            action.required = True
-            action.help = "write report.html, the tables, figures and summary.json into DIR"
-        elif action.dest == "json":
-            action.help = "print summary.json on stdout"
+    add_output_arguments(
+        parser,
+        out_help="write report.html, the tables, figures and summary.json into DIR",
+        out_required=True,
+        json_help="print summary.json on stdout",
+    )
 
 
 def configure(args: argparse.Namespace):
