@@ -35,9 +35,11 @@ from profiles.batch import find_survey_files, run_batch
 from profiles.batch_task import BatchOptions, analyse_file
 
 STAGES = ("read", "segments", "spacing", "spectra", "windows", "write")
-#: Bare lower bound of each stage (None: no bare counterpart).
-BARE_OF = {"read": "read_csv", "segments": "Geod.inv", "spacing": None,
-           "spectra": "interp + rfft", "windows": "windowed rfft", "write": None}
+#: Bare lower bound of each stage.
+BARE_OF = {"read": "read_csv", "segments": "Geod.inv", "spacing": "multitaper",
+           "spectra": "interp + rfft", "windows": "windowed rfft", "write": "write_table"}
+#: The bare stages the issue names (the reading of the text is added: every run must read it).
+CORE = ("read_csv", "Geod.inv", "interp + rfft", "windowed rfft")
 #: The windows of the batch with the default window (256 samples) and step (a quarter).
 WINDOW, STRIDE = 256, 64
 
@@ -99,8 +101,22 @@ def traced_peaks(path: Path, options: BatchOptions) -> dict[str, float]:
 
 
 def bare_file(path: Path, rounds: int = 1) -> dict[str, float]:
-    """Seconds of the bare lower-bound stages on one file (each done ``rounds`` times)."""
+    """Seconds of the bare lower-bound stages on one file (each done ``rounds`` times).
+
+    Beside the stages the issue names (``read_csv``, ``Geod.inv``, ``interp + rfft``,
+    ``windowed rfft``), the two stages that have no counterpart there get the bare calls the
+    same work cannot do without: ``multitaper`` (the spacing audit's fall-off fit needs one
+    multitaper spectrum per line: ``scipy.signal.windows.dpss`` with NW = 4 and 7 tapers, and
+    one batched ``rfft`` of the tapered differences, plus ``numpy.median`` of the steps) and
+    ``write_table`` (both layers as Parquet: ``shapely.linestrings`` of every line and of
+    every window's stretch of stations, ``shapely.to_wkb``, ``pyarrow.parquet.write_table``
+    of the same numbers of rows and of float columns).
+    """
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+    import shapely
     from numpy.lib.stride_tricks import sliding_window_view
+    from scipy.signal.windows import dpss
 
     geod = Geod(ellps="WGS84")
     total = defaultdict(float)
@@ -134,6 +150,31 @@ def bare_file(path: Path, rounds: int = 1) -> dict[str, float]:
             power = np.abs(np.fft.rfft(frames, axis=-1)) ** 2
             np.argmax(power[:, 2:], axis=-1)
         total["windowed rfft"] += time.perf_counter() - start
+
+        start = time.perf_counter()
+        steps = np.diff(distance, axis=-1)
+        np.median(steps, axis=-1)
+        for row in range(lines):
+            differences = np.diff(uniform[row])
+            tapers = dpss(differences.size, 4.0, 7)
+            power = np.abs(np.fft.rfft(tapers * differences, axis=-1)) ** 2
+            power.mean(axis=0)
+        total["multitaper"] += time.perf_counter() - start
+
+        start = time.perf_counter()
+        starts = np.arange(0, per_line - WINDOW + 1, STRIDE)
+        index = (starts[:, None] + np.arange(WINDOW + 1)).clip(max=per_line - 1)
+        coords = np.stack([lon.reshape(lines, per_line), lat.reshape(lines, per_line)], axis=-1)
+        windows = coords[:, index].reshape(-1, 2)
+        paths = shapely.linestrings(windows, indices=np.repeat(np.arange(lines * starts.size), WINDOW + 1))
+        tracks = shapely.linestrings(coords.reshape(-1, 2), indices=np.repeat(np.arange(lines), per_line))
+        with tempfile.TemporaryDirectory() as out:
+            for name, geometry, columns in (("windows", paths, 23), ("segments", tracks, 37)):
+                numbers = np.zeros(geometry.size)
+                table = pa.table({**{f"c{i}": numbers for i in range(columns)},
+                                  "geometry": shapely.to_wkb(geometry)})
+                pq.write_table(table, Path(out) / f"{name}.parquet")
+        total["write_table"] += time.perf_counter() - start
     return dict(total)
 
 
@@ -146,6 +187,7 @@ def bare(paths, repeat: int) -> dict[str, float]:
             for stage, seconds in bare_file(path).items():
                 total[stage] += seconds
         total["total"] = sum(total.values())
+        total["core"] = sum(total[name] for name in CORE)
         if best is None or total["total"] < best["total"]:
             best = dict(total)
     return best
@@ -256,14 +298,12 @@ def main() -> None:
         for stage in STAGES:
             name = BARE_OF[stage]
             left = f"{stage:<20} {ours[stage]:8.3f} {rate(points, ours[stage])} {peaks[stage]:12.1f}"
-            if name is None:
-                print(f"{left}             | -")
-                continue
             print(f"{left}             | {name:<20} {floor[name]:8.3f} {rate(points, floor[name])} "
                   f"{ours[stage] / floor[name]:7.1f}")
-        print(f"{'all stages':<20} {ours['total']:8.3f} {rate(points, ours['total'])} {'':12} "
-              f"            | {'bare total':<20} {floor['total']:8.3f} {rate(points, floor['total'])} "
-              f"{ours['total'] / floor['total']:7.1f}")
+        for label, key in (("bare total", "total"), ("bare, issue's stages", "core")):
+            print(f"{'all stages':<20} {ours['total']:8.3f} {rate(points, ours['total'])} {'':12} "
+                  f"            | {label:<20} {floor[key]:8.3f} {rate(points, floor[key])} "
+                  f"{ours['total'] / floor[key]:7.1f}")
 
         startup = cluster_start_and_close()
         # Bare jobs about as long as one task, so that the pool sees the machine as the batch does.
@@ -275,9 +315,11 @@ def main() -> None:
         print()
         print(f"local cluster start and close (2 workers): {startup:.2f} s")
         print(f"end to end, 1 worker : {one:8.3f} s {rate(points, one)}   ratio to bare total "
-              f"{one / floor['total']:.1f} (target <= 2.0)")
+              f"{one / floor['total']:.1f} (target <= 2.0), to the issue's bare stages "
+              f"{one / floor['core']:.1f}")
         print(f"end to end, 2 workers: {two:8.3f} s {rate(points, two)}   ratio to bare total / 2 "
-              f"{two / (floor['total'] / 2):.1f}")
+              f"{two / (floor['total'] / 2):.1f}, to the issue's bare stages / 2 "
+              f"{two / (floor['core'] / 2):.1f}")
         print(f"end to end, 1 worker / all stages in one process: {one / ours['total']:.2f} "
               f"(what Dask adds: cluster start, worker imports, tasks)")
         print(f"two workers / one worker: {one / two:.2f}x (target >= 1.6 on 2 cores); the bare stages "
