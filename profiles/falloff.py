@@ -49,13 +49,13 @@ folds to m N0 (budget module).
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Literal, get_args
 
 import numpy as np
 import pandas as pd
 
-from .budget import exponential_images, image_ratio, power_law_images
+from .budget import PowerLawImageSum, exponential_images, image_ratio
 from .errors import InputError
 
 #: Forms of the fall-off.
@@ -426,73 +426,164 @@ def _select_bins(spectra: Sequence, band) -> _Bins:
 
 @dataclass(frozen=True)
 class _Problem:
-    """The Whittle fit of one model form to pooled bins (normalised densities)."""
+    """The Whittle fit of one model form to pooled bins (normalised densities).
+
+    The log shape of the model at a value of z, and the log model and the objective at a
+    parameter vector, are computed once and kept (``memo``, a dictionary per problem): the
+    grid, the line searches and the central differences of the fits come back to the same
+    values many times (a folded power law costs two Hurwitz zeta functions per bin), and a
+    kept value is the very number a new evaluation would give.
+    """
 
     model: str
     bins: _Bins
     k_ref: float
     z_scale: float  # shape = z / z_scale (power law: 1; exponential: 4 pi k_max)
     reference_spacing: float
+    memo: dict = field(default_factory=dict, repr=False, compare=False)
+
+    def log_shapes(self, zs, folded: bool) -> np.ndarray:
+        """ln of the (folded) model shape relative to its value at k_ref, one row per z of
+        ``zs`` (rows are read-only: they are kept)."""
+        keys = [("shape", z, folded) for z in np.ravel(zs).tolist()]
+        missing = [key for key in dict.fromkeys(keys) if key not in self.memo]
+        if missing:
+            self._evaluate([key[1] for key in missing], folded)
+        return np.array([self.memo[key] for key in keys])
 
     def log_shape(self, z, folded: bool) -> np.ndarray:
-        shape = z / self.z_scale
-        k, dx = self.bins.wavenumber, self.bins.spacing
-        log_model = _log_shape(self.model, k, shape, self.k_ref)
+        key = ("shape", float(z), folded)
+        if key not in self.memo:
+            self._evaluate([key[1]], folded)
+        return self.memo[key]
+
+    def shape_slope(self, z, folded: bool) -> np.ndarray:
+        """d ln F / dz at every bin (F the model shape), analytic:
+        -ln(k/k_ref) (power law) or -4 pi (k - k_ref) (exponential), plus
+        (dA/d shape) / (1 + A) when folded, all over z_scale."""
+        key = ("slope", float(z), folded)
+        if key not in self.memo:
+            self._evaluate([key[1]], folded)
+        return self.memo[key]
+
+    def _evaluate(self, zs: list, folded: bool) -> None:
+        """Log shape and its slope at every z of ``zs``, into the memo. A folded power law
+        uses :class:`profiles.budget.PowerLawImageSum` on this problem's c = k dx (the image
+        ratio of :func:`profiles.budget.power_law_images` with its slope in beta); the
+        exponential's image ratio (:func:`profiles.budget.exponential_images`) is
+        differentiated in closed form."""
+        if "constants" not in self.memo:
+            k, dx = self.bins.wavenumber, self.bins.spacing
+            power_law = self.model == "power-law"
+            self.memo["constants"] = (
+                np.log(k / self.k_ref) if power_law else k - self.k_ref,  # ln F = -shape * this
+                np.log(k / self.k_ref) if power_law else 4.0 * np.pi * (k - self.k_ref),  # -d ln F/d shape
+                k * dx,
+                PowerLawImageSum(k * dx) if power_law else 4.0 * np.pi / dx,  # u = rate h
+            )
+        distance, rate_of_fall, c, images_of = self.memo["constants"]
+        shape = np.array(zs, dtype=float)[:, np.newaxis] / self.z_scale
+        log_f = -shape * distance if self.model == "power-law" else -4.0 * np.pi * shape * distance
+        slope = np.broadcast_to(-rate_of_fall, log_f.shape)
         if folded:
-            c = k * dx
             with np.errstate(all="ignore"):
                 if self.model == "power-law":
-                    images = power_law_images(c, shape)
+                    images, images_slope = images_of(shape, slope=True)
                 else:
-                    images = exponential_images(c, 4.0 * np.pi * shape / dx)
-            log_model = log_model + np.log1p(images)
-        return log_model
+                    u = images_of * shape
+                    images = exponential_images(c, u)
+                    near, far, gap = np.exp(-u), np.exp(-u * (1.0 - 2.0 * c)), -np.expm1(-u)
+                    images_slope = images_of * ((-near - (1.0 - 2.0 * c) * far) / gap - images * near / gap)
+                log_f = log_f + np.log1p(images)
+                slope = slope + images_slope / (1.0 + images)
+        if self.z_scale != 1.0:
+            slope = slope / self.z_scale
+        log_f = np.array(log_f)
+        slope = np.array(slope)
+        log_f.flags.writeable = False
+        slope.flags.writeable = False
+        for z, row, row_slope in zip(zs, log_f, slope, strict=True):
+            self.memo[("shape", z, folded)] = row
+            self.memo[("slope", z, folded)] = row_slope
 
     def log_model(self, theta, folded: bool) -> np.ndarray:
+        key = ("model", tuple(np.ravel(theta).tolist()), folded)
+        found = self.memo.get(key)
+        if found is not None:
+            return found
         log_c, z = theta[0], theta[1]
         signal = log_c + self.log_shape(z, folded)
         if len(theta) == 2:
-            return signal
-        floor = theta[2] + np.log(self.bins.spacing / self.reference_spacing)
-        return np.logaddexp(signal, floor)
+            value = signal
+        else:
+            if "floor_scale" not in self.memo:
+                self.memo["floor_scale"] = np.log(self.bins.spacing / self.reference_spacing)
+            value = np.logaddexp(signal, theta[2] + self.memo["floor_scale"])
+        value.flags.writeable = False
+        self.memo[key] = value
+        return value
 
     def objective(self, theta, folded: bool) -> float:
-        log_m = self.log_model(theta, folded)
-        value = np.sum(self.bins.weight * (log_m + self.bins.psd * np.exp(-log_m)))
-        return float(value) if np.isfinite(value) else 1e300
+        key = ("objective", tuple(np.ravel(theta).tolist()), folded)
+        found = self.memo.get(key)
+        if found is None:
+            log_m = self.log_model(theta, folded)
+            value = np.sum(self.bins.weight * (log_m + self.bins.psd * np.exp(-log_m)))
+            found = self.memo[key] = float(value) if np.isfinite(value) else 1e300
+        return found
 
-    def profiled(self, z: float, folded: bool) -> tuple[float, float]:
-        """Objective with C at its closed-form optimum (no floor), and that ln C."""
+    def profiled(self, zs, folded: bool) -> tuple[np.ndarray, np.ndarray]:
+        """Objective with C at its closed-form optimum (no floor), and that ln C, at every z of
+        ``zs``: C = sum_j w_j S_j / F_j / sum_j w_j with F the model shape (the zero of the
+        objective's derivative in C)."""
+        log_f = self.log_shapes(zs, folded)
+        values, log_c = np.full(len(log_f), 1e300), np.zeros(len(log_f))
+        good = np.all(np.isfinite(log_f), axis=1)
+        if good.any():
+            w = self.bins.weight
+            log_c[good] = np.log(np.sum(w * self.bins.psd * np.exp(-log_f[good]), axis=1) / np.sum(w))
+            log_m = log_c[good][:, np.newaxis] + log_f[good]
+            found = np.sum(w * (log_m + self.bins.psd * np.exp(-log_m)), axis=1)
+            values[good] = np.where(np.isfinite(found), found, 1e300)
+        return values, log_c
+
+    def profiled_at(self, z: float, folded: bool) -> tuple[float, float]:
+        """:meth:`profiled` at one z (the same numbers, fewer steps)."""
         log_f = self.log_shape(z, folded)
-        if not np.all(np.isfinite(log_f)):
+        if not np.isfinite(log_f).all():
             return 1e300, 0.0
-        w = self.bins.weight
-        log_c = float(np.log(np.sum(w * self.bins.psd * np.exp(-log_f)) / np.sum(w)))
+        if "weighted_psd" not in self.memo:
+            self.memo["weighted_psd"] = (self.bins.weight * self.bins.psd, np.sum(self.bins.weight))
+        weighted_psd, total_weight = self.memo["weighted_psd"]
+        log_c = float(np.log(np.sum(weighted_psd * np.exp(-log_f)) / total_weight))
         return self.objective(np.array([log_c, z]), folded), log_c
 
     def fit_without_floor(self, bounds, folded: bool) -> np.ndarray:
+        """(ln C, z) minimising the profiled objective: the best point of a grid over the
+        bounds (17 geometric or 13 even steps), refined by Brent's bounded search between its
+        neighbours."""
         from scipy.optimize import minimize_scalar
 
         wide = bounds[0] > 0 and bounds[1] > 100 * bounds[0]
         grid = np.geomspace(*bounds, 17) if wide else np.linspace(bounds[0], bounds[1], 13)
-        values = [self.profiled(z, folded)[0] for z in grid]
+        values = self.profiled(grid, folded)[0]
         best = int(np.argmin(values))
         lo, hi = grid[max(best - 1, 0)], grid[min(best + 1, grid.size - 1)]
         found = minimize_scalar(
-            lambda z: self.profiled(z, folded)[0], bounds=(lo, hi), method="bounded",
+            lambda z: self.profiled_at(z, folded)[0],
+            bounds=(lo, hi),
+            method="bounded",
             options={"xatol": 1e-6 * max(1.0, abs(grid[best]))},
         )
         z = float(found.x) if found.fun <= values[best] else float(grid[best])
-        return np.array([self.profiled(z, folded)[1], z])
+        return np.array([self.profiled_at(z, folded)[1], z])
 
     def fit_with_floor(self, start: np.ndarray, bounds) -> np.ndarray:
         """(ln C, z, ln N0) by Fisher scoring from two starting floors (half the median of the
         top quarter of the band, and 2 % of it); the better end point."""
         top = self.bins.psd[self.bins.wavenumber >= np.quantile(self.bins.wavenumber, 0.75)]
         level = float(np.log(np.median(top)))
-        limits = np.array(
-            [[-np.inf, np.inf], bounds, [level - 12.0, level + 3.0]]
-        )
+        limits = np.array([[-np.inf, np.inf], bounds, [level - 12.0, level + 3.0]])
         ends = [self.scoring(np.array([start[0], start[1], level + shift]), limits) for shift in (-0.7, -4.0)]
         return min(ends, key=lambda theta: self.objective(theta, True))
 
@@ -524,14 +615,12 @@ class _Problem:
         return theta
 
     def gradients(self, theta, folded: bool) -> np.ndarray:
-        """d ln M / d theta at every bin, shape (n_params, n_bins): exact for ln C and ln N0,
-        a central difference for the shape."""
+        """d ln M / d theta at every bin, shape (n_params, n_bins), analytic (the shape's by
+        :meth:`shape_slope`)."""
         z = theta[1]
-        step = 1e-5 * max(1.0, abs(z))
-        shape_slope = (self.log_shape(z + step, folded) - self.log_shape(z - step, folded)) / (2 * step)
         log_m = self.log_model(theta, folded)
         signal_share = np.exp(theta[0] + self.log_shape(z, folded) - log_m)
-        rows = [signal_share, signal_share * shape_slope]
+        rows = [signal_share, signal_share * self.shape_slope(z, folded)]
         if len(theta) == 3:
             rows.append(1.0 - signal_share)
         return np.array(rows)

@@ -119,7 +119,11 @@ def _side_medians(log_step: np.ndarray, window: int, min_window: int) -> tuple[n
     before = np.full(m + 1, np.nan)
     after = np.full(m + 1, np.nan)
     if m >= window:
-        full = np.median(sliding_window_view(log_step, window), axis=1)  # steps i .. i + window - 1
+        # np.median of every window (steps i .. i + window - 1), from the sorted windows: the
+        # middle value, or the mean of the two middle ones (a small sort beats a partition)
+        ordered = np.sort(sliding_window_view(log_step, window), axis=1)
+        half = window // 2
+        full = ordered[:, half] if window % 2 else (ordered[:, half - 1] + ordered[:, half]) / 2.0
         before[window:] = full
         after[: m - window + 1] = full
     # Near the ends the windows are shorter (at least min_window steps).

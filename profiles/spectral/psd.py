@@ -23,6 +23,7 @@ Both are scaled so that ``onesided * mean(|C|^2)`` (Welch) or the weighted mean 
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -48,6 +49,7 @@ __all__ = [
     "WelchCoefficients",
     "adaptive_weights",
     "confidence_factors",
+    "dpss_tapers",
     "multitaper_coefficients",
     "multitaper_psd",
     "periodogram",
@@ -624,7 +626,8 @@ class MultitaperCoefficients:
     eigenvalues : ndarray, shape (K,)
         Concentration lambda_k of taper k in the band |f| <= W (Slepian 1978).
     tapers : ndarray, shape (K, N)
-        The tapers h_k (scipy.signal.windows.dpss, symmetric, unit energy).
+        The tapers h_k (scipy.signal.windows.dpss, symmetric, unit energy); read-only, like
+        ``eigenvalues``, being shared through the cache of :func:`dpss_tapers`.
     onesided : ndarray
         2, except 1 at k = 0 and the Nyquist bin of even M.
     wavenumber : ndarray
@@ -666,6 +669,36 @@ class MultitaperCoefficients:
         return int(self.eigenvalues.size)
 
 
+#: Taper sets kept by :func:`dpss_tapers` (each K x N floats: 0.56 MB for 7 tapers of 10,000).
+DPSS_CACHE_SIZE = 16
+
+
+@functools.lru_cache(maxsize=DPSS_CACHE_SIZE)
+def dpss_tapers(count: int, nw: float, n_tapers: int) -> tuple[np.ndarray, np.ndarray]:
+    """The first ``n_tapers`` DPSS tapers of ``count`` samples and their concentrations, cached.
+
+    ``scipy.signal.windows.dpss(count, nw, n_tapers, sym=True, norm=2, return_ratios=True)``
+    (Slepian 1978: the eigenvectors of the symmetric tridiagonal matrix of Percival and Walden
+    1993, section 8.3, unit energy), computed once per (N, NW, K): the tridiagonal eigensolver
+    costs far more than the tapered transforms, and the segments of a survey often share their
+    length. The arrays are read-only, so that no caller can alter what the next one gets.
+
+    Returns
+    -------
+    tapers : ndarray, shape (K, N), read-only
+    concentrations : ndarray, shape (K,), read-only
+        lambda_k, the share of each taper's energy in |f| <= W.
+    """
+    from scipy.signal.windows import dpss
+
+    tapers, concentrations = dpss(int(count), float(nw), int(n_tapers), sym=True, norm=2, return_ratios=True)
+    tapers = np.ascontiguousarray(tapers, dtype=np.float64)
+    concentrations = np.array(concentrations, dtype=np.float64)
+    tapers.flags.writeable = False
+    concentrations.flags.writeable = False
+    return tapers, concentrations
+
+
 def multitaper_coefficients(
     values: object,
     *,
@@ -700,8 +733,6 @@ def multitaper_coefficients(
     -------
     MultitaperCoefficients
     """
-    from scipy.signal.windows import dpss
-
     dx = check_spacing(spacing)
     array = as_values(values, min_length=8)
     count = array.size
@@ -721,13 +752,13 @@ def multitaper_coefficients(
     if isinstance(length, bool) or not isinstance(length, int | np.integer) or length < count:
         raise InputError(f"n_fft: {n_fft!r} must be a whole number >= N = {count}")
     length = int(length)
-    tapers, eigenvalues = dpss(count, nw, int(n_tapers), sym=True, norm=2, return_ratios=True)
+    tapers, eigenvalues = dpss_tapers(count, nw, int(n_tapers))
     residual, _, _ = remove_trend(array, detrend)
     coefficients = np.fft.rfft(tapers * residual, n=length, axis=-1)
     coefficients *= np.sqrt(dx)
     return MultitaperCoefficients(
         coefficients=coefficients,
-        eigenvalues=np.asarray(eigenvalues, dtype=np.float64),
+        eigenvalues=eigenvalues,
         tapers=tapers,
         onesided=_onesided(length),
         wavenumber=np.fft.rfftfreq(length, d=dx),
@@ -767,14 +798,26 @@ def adaptive_weights(
     if spectra.shape[0] == 1 or noise == 0.0:
         return np.ones_like(spectra)
     estimate = spectra[:2].mean(axis=0)
+    leak = (1.0 - lam) * noise
+    weights, product = np.empty_like(spectra), np.empty_like(spectra)
+    change = np.empty_like(estimate)
     for _ in range(int(max_iterations)):
-        b = estimate / (lam * estimate + (1.0 - lam) * noise)
-        weights = lam * b**2
+        # the same operations as b = S / (lam S + (1 - lam) noise), w = lam b^2, in place
+        np.multiply(lam, estimate, out=weights)
+        weights += leak
+        np.divide(estimate, weights, out=weights)
+        np.square(weights, out=weights)
+        np.multiply(lam, weights, out=weights)
         total = weights.sum(axis=0)
         # A bin with no power at all gets equal weights rather than 0/0.
-        weights[:, total == 0.0] = 1.0
-        updated = (weights * spectra).sum(axis=0) / weights.sum(axis=0)
-        converged = np.all(np.abs(updated - estimate) <= tolerance * updated)
+        empty = total == 0.0
+        if empty.any():
+            weights[:, empty] = 1.0
+            total = weights.sum(axis=0)
+        np.multiply(weights, spectra, out=product)
+        updated = product.sum(axis=0) / total
+        np.subtract(updated, estimate, out=change)
+        converged = np.all(np.abs(change, out=change) <= tolerance * updated)
         estimate = updated
         if converged:
             break
@@ -812,9 +855,7 @@ def multitaper_psd(
     Spectrum
         psd in field units squared per (cycle/m); resolution 2W.
     """
-    eigen = multitaper_coefficients(
-        values, spacing=spacing, nw=nw, n_tapers=n_tapers, detrend=detrend
-    )
+    eigen = multitaper_coefficients(values, spacing=spacing, nw=nw, n_tapers=n_tapers, detrend=detrend)
     spectra = eigen.coefficients.real**2 + eigen.coefficients.imag**2
     weights = adaptive_weights(eigen) if adaptive else np.ones_like(spectra)
     total = weights.sum(axis=0)
