@@ -19,6 +19,9 @@ IEEE 70, 1055-1096). Band: every bin above the multitaper half-bandwidth W (the 
 blurred by the trend removal) and at or above the bin of the spectrum's maximum among those
 below a quarter of the Nyquist wavenumber (so a peak of dominant wavelength is not fitted as
 fall-off), up to but excluding the Nyquist bin; or the band the caller gives, as wavelengths.
+With the automatic rule the band is then started above any significant peak the fitted model
+leaves out (:func:`_highest_peak`): on red relief the maximum is the lowest bins, and a fabric
+peak above them would otherwise be fitted as fall-off.
 
 Because the stations of the fitted piece are point samples too, the model is compared with
 the data **folded at the piece's own spacing**: M(k) = C F(k) [1 + A(k, dx)] + N0 with A the
@@ -79,6 +82,11 @@ SIGNIFICANCE_Z = 2.0
 MIN_DROP = 2.0
 #: Likelihood ratio beyond which a noise floor is kept (5 %, boundary parameter).
 FLOOR_LIKELIHOOD_RATIO = 2.706
+#: A bin is a spectral peak when it exceeds the fitted model with this false-alarm
+#: probability, shared among the bins (Bonferroni).
+PEAK_FALSE_ALARM = 1e-3
+#: The automatic band is moved above peaks at most this many times.
+PEAK_ROUNDS = 3
 
 #: Field kinds (as in a survey configuration or :func:`profiles.columns.field_kind`) whose
 #: spectra fall off exponentially.
@@ -388,7 +396,9 @@ def _group(k: np.ndarray, psd: np.ndarray, inflation: np.ndarray):
     )
 
 
-def _select_bins(spectra: Sequence, band) -> _Bins:
+def _select_bins(spectra: Sequence, band, start: float = 0.0) -> _Bins:
+    """The bins of the fit: the automatic rule (``band`` None), starting at or above
+    ``start`` (cycles per metre; moved there above spectral peaks), or the given band."""
     rule = "automatic" if band is None else "given"
     if band is not None:
         try:
@@ -402,7 +412,7 @@ def _select_bins(spectra: Sequence, band) -> _Bins:
         k, psd, dx = spectrum.wavenumber, spectrum.psd, spectrum.spacing
         nyquist = 0.5 / dx
         lowest = 0.5 * LOW_HALF_BANDWIDTHS * spectrum.resolution * (1 + 1e-9)
-        keep = (k > lowest) & (k < nyquist * (1 - 1e-9)) & (psd > 0)
+        keep = (k > lowest) & (k < nyquist * (1 - 1e-9)) & (psd > 0) & (k >= start)
         if band is None:
             search = np.flatnonzero(keep & (k <= PEAK_SEARCH_SHARE * nyquist))
             if search.size:
@@ -704,7 +714,46 @@ def fit_falloff_spectra(
     """
     if model not in get_args(FalloffKind):
         raise InputError(f"model: {model!r} is not one of {', '.join(get_args(FalloffKind))}")
-    bins = _select_bins(spectra, band)
+    start, moved = 0.0, []
+    while True:
+        fitted, excess = _fit_bins(_select_bins(spectra, band, start), model)
+        if band is not None or excess is None or len(moved) == PEAK_ROUNDS:
+            break
+        peak = _highest_peak(*excess)
+        if peak is None:
+            break
+        start = peak + max(spectrum.resolution for spectrum in spectra)
+        moved.append(peak)
+        try:
+            _select_bins(spectra, band, start)
+        except InputError:  # too few bins above the peak: keep the fit below it
+            break
+    if moved:
+        fitted = replace(fitted, message=f"{fitted.message}; band starts above the spectral peak at "
+                                          f"{1e-3 / moved[-1]:.4g} km wavelength")
+    return fitted
+
+
+def _highest_peak(wavenumber, ratio, dof, spacing, limit) -> float | None:
+    """Wavenumber of the highest bin below PEAK_SEARCH_SHARE of its Nyquist wavenumber (and
+    below ``limit``) whose density exceeds the fitted model significantly, or None.
+
+    Under the model, a bin's density over the model is close to chi-square with
+    nu = 2 w^2 / c degrees of freedom over nu (w Fourier bins averaged, c their summed
+    variance inflation; a periodogram bin has 2: Percival and Walden 1993, from memory); a
+    bin is a peak beyond the upper PEAK_FALSE_ALARM / (number of bins) point.
+    """
+    from scipy.stats import chi2
+
+    threshold = chi2.isf(PEAK_FALSE_ALARM / wavenumber.size, dof) / dof
+    peaks = (ratio > threshold) & (wavenumber <= PEAK_SEARCH_SHARE * 0.5 / spacing) & (wavenumber < limit)
+    return float(wavenumber[peaks].max()) if peaks.any() else None
+
+
+def _fit_bins(bins: _Bins, model: FalloffKind):
+    """The three fits of the module notes on one set of bins: the model, and (when it falls
+    off) each bin's wavenumber, density over the fitted model, degrees of freedom and
+    spacing, for the peak screen."""
     weight = bins.weight
     scale = float(np.exp(np.sum(weight * np.log(bins.psd)) / np.sum(weight)))
     normalised = replace(bins, psd=bins.psd / scale)
@@ -735,7 +784,7 @@ def fit_falloff_spectra(
     straight_err = problem.shape_error(straight, folded=False)
     z_err = straight_err * z_scale
     if not (straight[1] > SIGNIFICANCE_Z * z_err and straight[1] * drop >= np.log(MIN_DROP)):
-        return FalloffModel(
+        white = FalloffModel(
             shape=straight[1] / z_scale,
             shape_err=straight_err,
             reference_power=float(np.exp(straight[0])) * scale,
@@ -746,6 +795,7 @@ def fit_falloff_spectra(
             ),
             **common,
         )
+        return white, None
 
     # 2. Folded model, without and with a floor.
     plain = problem.fit_without_floor(folded_bounds, folded=True)
@@ -774,7 +824,12 @@ def fit_falloff_spectra(
             fitted,
             message=message + f"; noise floor reached at {1e-3 / fitted.floor_wavenumber:.4g} km wavelength",
         )
-    return fitted
+    ratio = normalised.psd / np.exp(problem.log_model(theta, True))
+    dof = 2.0 * bins.weight**2 / bins.inflation
+    # Near the floor's corner the fitted sum of two terms bends less sharply than a real
+    # spectrum may: peaks are looked for only below half the corner's wavenumber.
+    limit = 0.5 * fitted.floor_wavenumber if floor_seen else np.inf
+    return fitted, (k, ratio, dof, bins.spacing, limit)
 
 
 def _band_text(k: np.ndarray) -> str:
