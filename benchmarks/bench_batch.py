@@ -45,11 +45,16 @@ WINDOW, STRIDE = 256, 64
 
 
 def make_archive(folder: Path, *, files: int, lines: int, points: int) -> list[Path]:
-    """``files`` CSV files of ``lines`` lines of ``points`` stations each (200-300 m steps)."""
+    """``files`` CSV files of ``lines`` lines of ``points`` stations each (200-300 m steps).
+
+    The depth is red, as seafloor relief is (a spectrum falling off about as k^-2): a random
+    walk of 10 m steps, plus a 25 km sinusoid of 100 m and 10 m of white noise (the floor).
+    """
     folder.mkdir(parents=True, exist_ok=True)
     paths = []
     for number in range(files):
         codes, lon, lat, values = synthetic_lines(lines, points, seed=number)
+        walk = np.random.default_rng(1000 + number).normal(0.0, 10.0, (lines, points)).cumsum(axis=1)
         seconds = np.tile(np.arange(points) * 50, lines).astype("timedelta64[s]")
         stamp = (np.datetime64("2026-03-04T05:06:07") + seconds).astype(str)
         frame = pd.DataFrame({
@@ -57,7 +62,7 @@ def make_archive(folder: Path, *, files: int, lines: int, points: int) -> list[P
             "time": np.char.add(stamp, "Z"),
             "lon": lon,
             "lat": lat,
-            "depth_m": 3000.0 + 100.0 * values,
+            "depth_m": 3000.0 + 100.0 * values + walk.ravel(),
         })
         path = folder / f"file{number:03d}.csv"
         frame.to_csv(path, index=False, float_format="%.6f")
