@@ -44,7 +44,7 @@ from .geometry import Segments
 from .infill import InfillStretches, infill_stretches, window_frame
 from .spacing import AliasBudget, SpacingAudit
 from .survey import Survey
-from .windows import WindowTable, track_paths
+from .windows import WindowTable, track_path_vertices
 
 #: Layers of the GeoPackage, in the order written (``infill`` only with a budget for a target).
 LAYERS = ("stations", "segments", "windows", "warnings", "infill")
@@ -90,16 +90,44 @@ def _shifted(part: np.ndarray, sheet: int) -> np.ndarray:
 
 def _lines(paths: list[np.ndarray]):
     """Shapely geometries of paths: LineStrings, or MultiLineStrings where a path is cut."""
+    lengths = np.array([len(path) for path in paths], dtype=np.intp)
+    offsets = np.zeros(lengths.size + 1, dtype=np.intp)
+    np.cumsum(lengths, out=offsets[1:])
+    vertices = np.concatenate(paths).reshape(-1, 2) if paths else np.zeros((0, 2))
+    return _lines_from(np.asarray(vertices, dtype=float), offsets)
+
+
+def _lines_from(vertices: np.ndarray, offsets: np.ndarray):
+    """:func:`_lines` of the paths ``vertices[offsets[i] : offsets[i + 1]]``, built at once.
+
+    A path that stays on one sheet (its longitudes within one turn [-180 + 360 s, 180 + 360 s))
+    is what :func:`split_at_antimeridian` makes of it: moved by s turns, repeated vertices
+    dropped. All those paths go into one ``shapely.linestrings(..., indices=...)`` call;
+    only paths that change sheet (or would keep fewer than two vertices) are cut one by one.
+    """
     import shapely
 
-    geometries = []
-    for path in paths:
-        parts = split_at_antimeridian(path)
+    count = offsets.size - 1
+    path = np.repeat(np.arange(count), np.diff(offsets))
+    lon, lat = vertices[:, 0], vertices[:, 1]
+    sheet = np.floor((lon + 180.0) / 360.0).astype(np.int64)
+    same = path[1:] == path[:-1]  # consecutive vertices of one path
+    moved = np.column_stack([lon - 360.0 * sheet, lat - 0.0])
+    keep = np.ones(path.size, dtype=bool)
+    keep[1:] = np.any(np.diff(moved, axis=0) != 0, axis=1) | ~same
+    slow = np.bincount(path[keep], minlength=count) < 2
+    slow[path[1:][(np.diff(sheet) != 0) & same]] = True
+    geometries = np.empty(count, dtype=object)
+    for i in np.flatnonzero(slow).tolist():
+        parts = split_at_antimeridian(vertices[offsets[i] : offsets[i + 1]])
         if len(parts) == 1:
-            geometries.append(shapely.linestrings(parts[0]))
+            geometries[i] = shapely.linestrings(parts[0])
         else:
-            geometries.append(shapely.multilinestrings([shapely.linestrings(p) for p in parts]))
-    return geometries
+            geometries[i] = shapely.multilinestrings([shapely.linestrings(p) for p in parts])
+    fast = keep & ~slow[path]
+    if fast.any():
+        shapely.linestrings(moved[fast], indices=path[fast], out=geometries)
+    return list(geometries)
 
 
 def _unwrapped(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
@@ -151,8 +179,8 @@ def window_layer(windows: WindowTable, budget: AliasBudget | None = None):
     (:func:`profiles.infill.window_frame`)."""
     frame = window_frame(windows, budget)
     frame["reasons"] = [",".join(r) for r in frame["reasons"]]
-    paths = track_paths(windows.tracks, windows.track, windows.start, windows.end)
-    return _frame(frame, _lines(paths))
+    vertices, offsets = track_path_vertices(windows.tracks, windows.track, windows.start, windows.end)
+    return _frame(frame, _lines_from(vertices, offsets))
 
 
 def warning_layer(windows: WindowTable):

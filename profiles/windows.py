@@ -420,22 +420,89 @@ def track_paths(
     (interpolated) and the samples between them, thinned to at most ``max_vertices``
     points. Each path is an array of shape (k, 2) of (lon, lat) in degrees, longitudes
     continuous along the track (they may leave [-180, 180) where a track crosses the
-    antimeridian; :mod:`profiles.gis` and the map deal with that).
+    antimeridian; :mod:`profiles.gis` and the map deal with that). The paths are views of
+    the one array of :func:`track_path_vertices`.
     """
-    paths = []
-    for index, lower, upper in zip(np.asarray(which).tolist(), np.asarray(start).tolist(),
-                                   np.asarray(stop).tolist(), strict=True):
-        track = tracks[index]
-        first = max(0, math.floor((lower - track.start) / track.spacing) + 1)
-        last = min(track.n - 1, math.ceil((upper - track.start) / track.spacing) - 1)
-        inside = np.arange(first, last + 1)
-        if inside.size > max_vertices - 2:
-            inside = inside[np.linspace(0, inside.size - 1, max_vertices - 2).round().astype(int)]
-        where = np.concatenate([[(lower - track.start) / track.spacing], inside,
-                                [(upper - track.start) / track.spacing]])
-        lon = np.unwrap(_at(track.lon, where, period=360.0), period=360.0)
-        paths.append(np.column_stack([lon, _at(track.lat, where)]))
-    return paths
+    vertices, offsets = track_path_vertices(tracks, which, start, stop, max_vertices=max_vertices)
+    return np.split(vertices, offsets[1:-1])
+
+
+def track_path_vertices(
+    tracks: Sequence[UniformSegment],
+    which: np.ndarray,
+    start: np.ndarray,
+    stop: np.ndarray,
+    *,
+    max_vertices: int = 200,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The paths of :func:`track_paths` as one array of vertices and the offsets of the paths.
+
+    Returns ``(vertices, offsets)``: path i is ``vertices[offsets[i] : offsets[i + 1]]``,
+    shape (k, 2), (lon, lat) in degrees. A path covers a contiguous run of its track's
+    samples, so all paths are cut with one fancy index into the tracks' samples laid end to
+    end; the interpolation is that of :func:`_at` (applied per track) and the longitudes are
+    made continuous as ``numpy.unwrap(period=360)`` does per path, which only the few paths
+    with a step of 180 degrees or more (after the short-way interpolation) need in full.
+    """
+    which = np.asarray(which, dtype=np.intp)
+    start = np.asarray(start, dtype=float)
+    stop = np.asarray(stop, dtype=float)
+    if which.size == 0:
+        return np.zeros((0, 2)), np.zeros(1, dtype=np.intp)
+    used = np.unique(which)
+    sizes = np.array([tracks[i].n for i in used.tolist()], dtype=np.intp)
+    base = np.zeros(used.size, dtype=np.intp)
+    np.cumsum(sizes[:-1], out=base[1:])
+    slot = np.searchsorted(used, which)  # the track's place among those used
+    origin = np.array([tracks[i].start for i in used.tolist()])[slot]
+    spacing = np.array([tracks[i].spacing for i in used.tolist()])[slot]
+    n = sizes[slot]
+    lower = (start - origin) / spacing  # fractional sample positions of the ends
+    upper = (stop - origin) / spacing
+    first = np.maximum(0, np.floor(lower).astype(np.intp) + 1)
+    last = np.minimum(n - 1, np.ceil(upper).astype(np.intp) - 1)
+    inside = np.maximum(last - first + 1, 0)  # samples strictly between the ends
+    room = max_vertices - 2
+    thinned = inside > room
+    kept = np.where(thinned, max(room, 0), inside)
+    offsets = np.zeros(which.size + 1, dtype=np.intp)
+    np.cumsum(kept + 2, out=offsets[1:])
+    # Every vertex's path and its place in the path, then its fractional sample position.
+    path = np.repeat(np.arange(which.size), kept + 2)
+    place = np.arange(offsets[-1]) - offsets[path]
+    where = (first[path] + place - 1).astype(float)  # the samples first, first + 1, ...
+    rows = np.flatnonzero(thinned)
+    if rows.size and room > 0:  # as inside[linspace(0, inside.size - 1, room).round()]
+        grid = np.linspace(0.0, (inside[rows] - 1).astype(float), room, axis=1).round().astype(np.intp)
+        cells = offsets[rows][:, None] + 1 + np.arange(room)
+        where[cells] = (first[rows][:, None] + grid).astype(float)
+    where[offsets[:-1]] = lower
+    where[offsets[1:] - 1] = upper
+    # _at on the tracks laid end to end: positions clamped per track, then shifted to it.
+    size = n[path]
+    position = np.clip(where, 0.0, size - 1.0)
+    left = np.minimum(np.floor(position).astype(np.intp), np.maximum(size - 2, 0))
+    right = np.minimum(left + 1, size - 1)
+    weight = position - left
+    shift = base[slot][path]
+    lon = np.concatenate([tracks[i].lon for i in used.tolist()])
+    lat = np.concatenate([tracks[i].lat for i in used.tolist()])
+    left += shift
+    right += shift
+    step = lon[right] - lon[left]
+    step = (step + 180.0) % 360.0 - 180.0
+    path_lon = lon[left] + weight * step
+    path_lat = lat[left] + weight * (lat[right] - lat[left])
+    # numpy.unwrap per path: unchanged (p[1:] + 0.0) unless a step reaches 180 degrees.
+    jump = ~(np.abs(np.diff(path_lon)) < 180.0)
+    jump[offsets[1:-1] - 1] = False  # steps between paths do not count
+    heads = path_lon[offsets[:-1]]
+    path_lon += 0.0  # as p[1:] + 0.0 in numpy.unwrap (no negative zeros), the first kept
+    path_lon[offsets[:-1]] = heads
+    for i in np.unique(path[1:][jump]).tolist():
+        here = slice(offsets[i], offsets[i + 1])
+        path_lon[here] = np.unwrap(path_lon[here], period=360.0)
+    return np.column_stack([path_lon, path_lat]), offsets
 
 
 def _at(values: np.ndarray, position: np.ndarray, *, period: float | None = None) -> np.ndarray:
@@ -675,6 +742,22 @@ def _range_reduce(ufunc: np.ufunc, values: np.ndarray, lo: np.ndarray, hi: np.nd
     return result
 
 
+def _range_count(flags: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Number of true ``flags[lo_i:hi_i]`` for every i, each flag read once.
+
+    ``flags`` may have more axes (one count per column then, shape (lo.size, ...)). The
+    distinct ends of all ranges cut ``flags`` into pieces that no range end falls inside; one
+    ``add.reduceat`` counts every piece, and a running total over the pieces gives each
+    range's count as the difference of two totals (integers: exact).
+    """
+    ends = np.sort(np.concatenate([lo, hi]))
+    starts = ends[np.concatenate([[True], ends[1:] != ends[:-1]]) & (ends < flags.shape[0])]
+    totals = np.zeros((starts.size + 1, *flags.shape[1:]), dtype=np.int64)
+    np.cumsum(np.add.reduceat(flags.view(np.uint8), starts, axis=0, dtype=np.int32), axis=0, out=totals[1:])
+    # A range end equal to flags.shape[0] finds the last total (up to the end).
+    return totals[np.searchsorted(starts, hi)] - totals[np.searchsorted(starts, lo)]
+
+
 #: Largest matrix (cells) :func:`_range_select` builds at once; more rows are done in blocks.
 _MEDIAN_CELLS = 1 << 23
 
@@ -738,10 +821,9 @@ def _range_median(values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndar
 
     1. a band [low, high] of values is placed from a sample of the ranges: the lowest and
        highest of their values a few ranks either side of their middle, found exactly;
-    2. the positions of the values up to ``high``, and among those the ones inside the
-       band, are listed in position order, so that a range's values inside the band are a
-       contiguous stretch of the second list, and its count below the band the difference
-       of two stretch lengths;
+    2. the positions of the values inside the band are listed in position order, so that
+       a range's values inside the band are a contiguous stretch of that list; its count
+       below the band comes from :func:`_range_count`;
     3. where both middle values of a range lie inside the band (its rank minus the count
        below the band falls inside its stretch), :func:`_range_select` finds them in the
        stretch, a few times shorter than the range; the few ranges whose middle falls
@@ -760,13 +842,13 @@ def _range_median(values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndar
     low = _range_select(values, lo[sample], hi[sample], np.maximum(rank[sample] - margin, 0)).min()
     high = _range_select(values, lo[sample], hi[sample],
                          np.minimum(rank[sample] + even[sample] + margin, count[sample] - 1)).max()
-    # Positions of the values up to the top of the band, then which of those are in it.
-    up_to = np.flatnonzero(values <= high)
-    candidates = values[up_to]
-    band = np.flatnonzero(candidates >= low)
-    reach = np.searchsorted(up_to, lo), np.searchsorted(up_to, hi)
-    first, stop = np.searchsorted(band, reach[0]), np.searchsorted(band, reach[1])
-    local = rank - (reach[1] - reach[0] - (stop - first))  # rank minus the count below
+    # Positions of the values in the band; counts of the values below it per range.
+    below = values < low
+    in_band = values <= high
+    in_band &= ~below
+    band = np.flatnonzero(in_band)
+    first, stop = np.searchsorted(band, lo), np.searchsorted(band, hi)
+    local = rank - _range_count(below, lo, hi)  # rank minus the count below
     inside = (local >= 0) & (local + even < stop - first)
     lower = np.empty(lo.size)
     upper = np.empty(lo.size)
@@ -774,9 +856,9 @@ def _range_median(values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndar
     if good.size and high == low:  # equal steps (regular stations): nothing to select
         lower[good] = upper[good] = low
     elif good.size:
+        inner = values[band]
         # Ranges sorted by the rank wanted and selected in groups, so that the alignment
         # of _range_select wastes few cells.
-        inner = candidates[band]
         for group in np.array_split(good[np.argsort(local[good], kind="stable")], _RANK_GROUPS):
             if group.size:
                 lower[group], upper[group] = _range_select(inner, first[group], stop[group],
@@ -800,9 +882,13 @@ def _rolloff_share(variance: np.ndarray, total: np.ndarray, *, n: int, spacing: 
     if some.all() and np.ptp(low) == 0 and np.ptp(high) == 0:  # one band for every window
         band = variance[:, low[0] + 1 : high[0] + 1].sum(axis=1)
     elif some.any():
-        base = np.arange(count) * width
-        flat = variance.reshape(-1)
-        band[some] = _range_reduce(np.add, flat, (base + low + 1)[some], (base + high + 1)[some])
+        # Only the columns some band reaches, copied once, so that the sums (one reduceat,
+        # the same additions in the same order) do not read the rest of every row.
+        rows = np.flatnonzero(some)
+        left, right = int(low[rows].min()) + 1, int(high[rows].max()) + 1
+        part = variance[rows, left:right]
+        base = np.arange(rows.size) * (right - left) - left
+        band[rows] = _range_reduce(np.add, part.reshape(-1), base + low[rows] + 1, base + high[rows] + 1)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(total > 0, band / np.where(total > 0, total, 1.0), 0.0)
 

@@ -18,17 +18,18 @@ import infill_survey
 import numpy as np
 import pyogrio
 import pytest
+import shapely
 from conftest import GEOD, walk
 from pyproj import CRS
 
 from profiles.geometry import build_segments
-from profiles.gis import LAYERS, split_at_antimeridian, write_geopackage
+from profiles.gis import LAYERS, _lines, split_at_antimeridian, window_layer, write_geopackage
 from profiles.infill import INFILL_COLUMNS
 from profiles.outputs import OutputFolder
 from profiles.resample import resample
 from profiles.spacing import WINDOW_BUDGET_COLUMNS, audit_spacing
 from profiles.survey import Survey
-from profiles.windows import along_track_windows
+from profiles.windows import along_track_windows, track_paths
 
 
 def build(start=(12.0, 55.0), bad_rows=True):
@@ -215,3 +216,51 @@ def test_infill_layer_is_written_empty_when_nothing_is_coarse(tmp_path):
     infill = geopandas.read_file(path, layer="infill")
     assert set(INFILL_COLUMNS) <= set(infill.columns)
     assert CRS.from_user_input(infill.crs) == CRS.from_epsg(4326)
+
+
+def one_line_at_a_time(paths):
+    """The readable reference: each path cut with split_at_antimeridian, one geometry each."""
+    lines = []
+    for path in paths:
+        parts = split_at_antimeridian(path)
+        if len(parts) == 1:
+            lines.append(shapely.linestrings(parts[0]))
+        else:
+            lines.append(shapely.multilinestrings([shapely.linestrings(p) for p in parts]))
+    return lines
+
+
+def test_lines_built_at_once_equal_one_line_at_a_time():
+    # Reference: the per-path construction above (RFC 7946 section 3.1.9 cutting); shapely's
+    # equals_exact with tolerance 0 and the same WKB. Paths on one sheet (also moved by whole
+    # turns, with repeated vertices and a negative zero), crossing eastwards and westwards,
+    # touching the meridian and crossing it more than once.
+    paths = [
+        np.array([[10.0, 0.0], [11.0, 1.0]]),
+        np.array([[-0.0, -0.0], [1.0, 2.0], [1.0, 2.0], [3.0, 4.0]]),
+        np.array([[190.0, 0.0], [191.0, 1.0], [191.0, 1.0]]),
+        np.array([[540.0, 0.0], [541.0, 1.0]]),
+        np.array([[179.9, 0.0], [180.0, 1.0], [180.1, 2.0]]),
+        np.array([[-179.9, 0.0], [-180.1, 1.0]]),
+        np.array([[179.0, 0.0], [181.0, 1.0], [179.0, 2.0], [-200.0, 3.0]]),
+        np.array([[170.0, 5.0], [180.0, 5.0]]),
+    ]
+    for line, reference in zip(_lines(paths), one_line_at_a_time(paths), strict=True):
+        assert line.geom_type == reference.geom_type
+        assert line.equals_exact(reference, 0.0)
+        assert shapely.to_wkb(line) == shapely.to_wkb(reference)
+
+
+@pytest.mark.parametrize("start", [(12.0, 55.0), (179.7, -16.0)])
+def test_window_layer_equals_one_line_at_a_time(start):
+    # The windows layer against the per-window construction, on tracks that do not cross the
+    # antimeridian and tracks that do (pyproj.Geod.fwd walks, tests/conftest.py).
+    _, audit, windows = build(start=start, bad_rows=False)
+    layer = window_layer(windows, audit.budget)
+    paths = track_paths(windows.tracks, windows.track, windows.start, windows.end)
+    reference = one_line_at_a_time(paths)
+    assert len(layer) == len(reference) == len(windows)
+    for line, expected in zip(layer.geometry, reference, strict=True):
+        assert line.geom_type == expected.geom_type and line.equals_exact(expected, 0.0)
+    kinds = {g.geom_type for g in reference}
+    assert kinds == ({"LineString", "MultiLineString"} if start[0] > 179 else {"LineString"})

@@ -14,6 +14,7 @@ Outside references, named again beside each check:
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -34,12 +35,15 @@ from profiles.spectral.significance import (
 from profiles.survey import Survey
 from profiles.windows import (
     COLUMNS,
+    _at,
+    _range_count,
     _range_median,
     _range_reduce,
     _range_select,
     along_track_windows,
     default_window,
     round_up_length,
+    track_path_vertices,
     track_paths,
 )
 
@@ -277,6 +281,9 @@ def test_range_statistics_equal_numpy(monkeypatch, cells, kind):
                                   [np.max(values[a:b]) for a, b in zip(lo, hi, strict=True)])
     np.testing.assert_allclose(_range_reduce(np.add, values, lo, hi),
                                [np.sum(values[a:b]) for a, b in zip(lo, hi, strict=True)], rtol=1e-13)
+    np.testing.assert_array_equal(_range_count(values > np.median(values), lo, hi),
+                                  [np.count_nonzero(values[a:b] > np.median(values))
+                                   for a, b in zip(lo, hi, strict=True)])
     rank = rng.integers(0, hi - lo)
     np.testing.assert_array_equal(_range_select(values, lo, hi, rank),
                                   [np.sort(values[a:b])[r] for a, b, r in zip(lo, hi, rank, strict=True)])
@@ -367,3 +374,46 @@ def test_track_paths_follow_the_samples_across_the_antimeridian():
     assert first == pytest.approx(1000.0, abs=0.5)  # pyproj.Geod distance from the start
     expected = np.interp(90_000.0, track.distance, np.unwrap(track.lon, period=360.0))
     assert math.isclose(path[-1, 0], float(expected), abs_tol=1e-9)
+
+
+def one_path_at_a_time(tracks, which, start, stop, *, max_vertices=200):
+    """The readable reference for track_paths: one window at a time, numpy.unwrap per path."""
+    paths = []
+    for index, lower, upper in zip(which.tolist(), start.tolist(), stop.tolist(), strict=True):
+        track = tracks[index]
+        first = max(0, math.floor((lower - track.start) / track.spacing) + 1)
+        last = min(track.n - 1, math.ceil((upper - track.start) / track.spacing) - 1)
+        inside = np.arange(first, last + 1)
+        if inside.size > max_vertices - 2:
+            inside = inside[np.linspace(0, inside.size - 1, max_vertices - 2).round().astype(int)]
+        where = np.concatenate([[(lower - track.start) / track.spacing], inside,
+                                [(upper - track.start) / track.spacing]])
+        lon = np.unwrap(_at(track.lon, where, period=360.0), period=360.0)
+        paths.append(np.column_stack([lon, _at(track.lat, where)]))
+    return paths
+
+
+@pytest.mark.parametrize("max_vertices", [200, 2, 3, 40, 10_000])
+def test_track_paths_equal_one_path_at_a_time(max_vertices):
+    # Reference: the per-window construction above (numpy.unwrap and linear interpolation of
+    # the samples); the paths must be identical, bit for bit. Tracks that cross the
+    # antimeridian eastwards and westwards, one in longitudes 0..360, and two that do not.
+    east = uniform_segments(survey_line(np.cos, [(90, 400, 250.0)], start=(179.5, 10.0)))
+    west = uniform_segments(survey_line(np.cos, [(270, 300, 250.0)], start=(-179.8, -30.0)))
+    plain = uniform_segments(survey_line(np.cos, [(30, 500, 250.0), (120, 300, 250.0)]))
+    wrapped = [replace(track, lon=track.lon % 360.0) for track in east]
+    tracks = east + west + plain + wrapped
+    table = along_track_windows(tracks, window=20e3, step=4e3)
+    lower, upper = table.piece_bounds()
+    for start, stop in ((table.start, table.end), (lower, upper)):
+        paths = track_paths(tracks, table.track, start, stop, max_vertices=max_vertices)
+        expected = one_path_at_a_time(tracks, table.track, start, stop, max_vertices=max_vertices)
+        assert len(paths) == len(expected) == len(table)
+        for path, reference in zip(paths, expected, strict=True):
+            assert path.shape == reference.shape
+            np.testing.assert_array_equal(path, reference)
+            np.testing.assert_array_equal(np.signbit(path), np.signbit(reference))
+    crossing = [p for p in paths if np.ptp(np.floor((p[:, 0] + 180.0) / 360.0)) > 0]
+    assert crossing and len(crossing) < len(paths)  # both kinds are there
+    vertices, offsets = track_path_vertices(tracks, table.track, table.start, table.end)
+    assert offsets[0] == 0 and offsets[-1] == vertices.shape[0] and np.all(np.diff(offsets) >= 2)

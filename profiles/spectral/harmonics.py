@@ -70,9 +70,10 @@ def _centred_transform(count: int) -> np.ndarray:
     return transform
 
 
-# Elements handled per block in the finishing pass: about 0.5 MB of complex numbers, so that
-# each block stays in cache while it is corrected, squared and scaled.
-_BLOCK = 32768
+# Elements handled per block in the finishing pass: about 2 MB of complex numbers, so that
+# each block stays in cache while it is corrected, squared and scaled; as large as a chunk
+# below, so that a chunk is finished in one block (fewer calls, each on more numbers).
+_BLOCK = 131072
 # Coefficients per transform when only the variances are wanted: many short series are
 # transformed a chunk of rows at a time into one buffer of about 2 MB, and finished while
 # that chunk is still in cache, instead of writing the whole transform out to memory first.
@@ -152,6 +153,7 @@ def _untapered_variances(
     if peak_from is not None:
         total, circular, peak = np.empty(rows), np.empty(rows), np.empty(rows, dtype=np.int64)
         cosine = np.cos(2.0 * np.pi * np.arange(1, width) / count)
+        ones = np.ones(width - 1)
         top = (count - 1) // 2
     chunk = max(1, _CHUNK // width)
     buffer = np.empty((min(chunk, rows), width), dtype=np.complex128)
@@ -173,9 +175,9 @@ def _untapered_variances(
             correction = slope[here]
         done = _finish(transform, count, 1.0, correction, None, out=variances[here])
         if peak_from is not None:
-            above = done[:, 1:]
-            np.sum(above, axis=1, out=total[here])
-            np.einsum("ij,j->i", above, cosine, out=circular[here])
+            above = done[:, 1:]  # the two sums as matrix-vector products (BLAS)
+            np.matmul(above, ones, out=total[here])
+            np.matmul(above, cosine, out=circular[here])
             np.argmax(done[:, peak_from : top + 1], axis=1, out=peak[here])
     shape = values.shape[:-1]
     sums = None
@@ -198,19 +200,20 @@ def _finish(
     Z_k -= slope * rfft(c)_k (if ``slope`` is given), then
     s_k^2 = 2 |Z_k|^2 / (N (N - 1) w2) for 0 < k < N/2 and half that at k = 0 and at
     k = N/2 (N even), w2 the taper's mean square, then Z_k *= scale (if given). Done in
-    blocks of about 0.5 MB so that every block is read from memory once, with the
+    blocks of about 2 MB so that every block is read from memory once, with the
     intermediate products in one buffer made once; |Z|^2 is Re^2 + Im^2, squared on the real
-    view and summed in pairs. When the coefficients are not wanted (``scale`` None) the
-    transform is only read: the corrected block lives in the buffer, which halves the
-    memory traffic of this pass.
+    view and summed in pairs. The line is removed in place, Z_k of every row of a block less
+    that row's slope times rfft(c)_k: one rank-1 update of the block's real view (BLAS
+    ``dger``, which reads and writes the block once; a real slope times a complex number is
+    two real products), so the transform given holds the corrected coefficients afterwards.
     """
     width = coefficients.shape[-1]
     flat = coefficients.reshape(-1, width)
     variances = np.empty(coefficients.shape) if out is None else out
     out = variances.reshape(-1, width)
     factor = 2.0 / (count * (count - 1) * power_norm)
-    line = _centred_transform(count) if slope is not None else None
-    slopes = np.reshape(slope, (-1, 1)) if slope is not None else None
+    line = _centred_transform(count).view(np.float64) if slope is not None else None
+    slopes = np.ascontiguousarray(np.reshape(slope, -1), dtype=np.float64) if slope is not None else None
     rows_per_block = max(1, _BLOCK // width)
     columns_per_block = min(width, _BLOCK)
     buffer = np.empty((min(rows_per_block, flat.shape[0]), columns_per_block), dtype=np.complex128)
@@ -220,24 +223,38 @@ def _finish(
             columns = slice(column, column + _BLOCK)
             part = flat[rows, columns]
             scratch = buffer[: part.shape[0], : part.shape[1]]
+            pairs = part.view(np.float64)  # (Re, Im) of each coefficient, side by side
             if line is not None:
-                np.multiply(slopes[rows], line[columns], out=scratch)
-                if scale is None:  # the corrected block goes to the buffer only
-                    np.subtract(part, scratch, out=scratch)
-                    part = scratch
-                else:
-                    part -= scratch
+                reach = line[2 * column : 2 * columns.stop]
+                _remove_line(pairs, slopes[rows], reach, scratch.view(np.float64))
             target = out[rows, columns]
             squares = scratch.view(np.float64)
-            np.square(part.view(np.float64), out=squares)
+            np.square(pairs, out=squares)
             np.add(squares[:, 0::2], squares[:, 1::2], out=target)
             target *= factor
             if scale is not None:
-                flat[rows, columns] *= scale
+                part *= scale
     variances[..., 0] *= 0.5
     if count % 2 == 0:
         variances[..., -1] *= 0.5
     return variances
+
+
+def _remove_line(pairs: np.ndarray, slopes: np.ndarray, line: np.ndarray, scratch: np.ndarray) -> None:
+    """pairs[i, :] -= slopes[i] * line, in place (real views of complex rows).
+
+    A C-contiguous block goes to BLAS ``dger`` as its transpose (Fortran order, so updated
+    in place); any other block is done with numpy in ``scratch``, of the block's shape.
+    """
+    if pairs.flags.c_contiguous:
+        from scipy.linalg.blas import dger
+
+        updated = dger(-1.0, line, slopes, a=pairs.T, overwrite_a=1)
+        if not np.may_share_memory(updated, pairs):  # not updated in place: copy back
+            pairs[...] = updated.T
+        return
+    np.multiply(slopes[:, np.newaxis], line, out=scratch)
+    pairs -= scratch
 
 
 def harmonic_variances(
