@@ -24,6 +24,7 @@ values without ``--crs``), swapped latitude and longitude, and degrees given wit
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -43,6 +44,7 @@ from .errors import InputError
 from .survey import BASE_COLUMNS, DROPPED, USED, Survey
 
 _MISSING_WORDS = ["nan", "na", "n/a", "null", "none", "-"]
+_MISSING_LENGTH = max(map(len, _MISSING_WORDS))
 
 
 @dataclass
@@ -66,6 +68,11 @@ class RawTable:
         Coordinates come from point geometries.
     converted : bool
         Those coordinates were already converted from the layer's CRS.
+    cells : callable, optional
+        ``cells(position, name)``: a cell as written in the file, stripped (for the examples
+        of warnings and errors), when ``table`` does not hold every cell as text (the text
+        reader's fast path reads numbers as float64). None: the cells of ``table`` are the text,
+        or are values as read (GIS layers).
     """
 
     table: pd.DataFrame
@@ -75,6 +82,7 @@ class RawTable:
     duplicates: dict[str, list[int]] = field(default_factory=dict)
     geometry: bool = False
     converted: bool = False
+    cells: Callable[[int, str], str] | None = None
 
 
 def table_to_survey(raw: RawTable, *, source: str, columns: ColumnNames, fields, crs) -> Survey:
@@ -111,7 +119,7 @@ def table_to_survey(raw: RawTable, *, source: str, columns: ColumnNames, fields,
 
     frame = pd.DataFrame(index=table.index)
     frame["line"] = (
-        table[line_name].astype(str).str.strip()
+        table[line_name].astype(str)  # stripped by assemble_stations
         if line_name is not None
         else pd.Series(stem, index=table.index)
     )
@@ -122,6 +130,13 @@ def table_to_survey(raw: RawTable, *, source: str, columns: ColumnNames, fields,
     for name in chosen:
         frame[name] = table[name]
     blank = _blank_rows(table) if not raw.geometry else np.zeros(len(table), bool)
+    cell_text = None
+    if raw.cells is not None:
+        in_table = {"lon": lon_name, "lat": lat_name, **{name: name for name in chosen}}
+
+        def cell_text(key: str, position: int) -> str:
+            return raw.cells(position, in_table[key])
+
     survey = assemble_stations(
         frame,
         source=source,
@@ -135,6 +150,7 @@ def table_to_survey(raw: RawTable, *, source: str, columns: ColumnNames, fields,
         coordinate_names=(lon_name, lat_name) if not raw.geometry else ("point x", "point y"),
         reasons=raw.reasons,
         degrees=not raw.converted,
+        cell_text=cell_text,
     )
     return Survey(survey.stations, survey.fields, survey.sources, tuple(notes) + survey.warnings)
 
@@ -207,7 +223,7 @@ def _match_field(name: str, candidates: list[str], source: str) -> str:
 
 def _mostly_numeric(column: pd.Series) -> bool:
     if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
-        return True
+        return bool(column.notna().any())  # as for text: a column of empty cells is no field
     if not (pd.api.types.is_string_dtype(column) or column.dtype == object):
         return False
     text = column.astype(str).str.strip()
@@ -237,25 +253,48 @@ def _numbers(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
         values = column.to_numpy(dtype=float, na_value=np.nan)
         return values, np.isnan(values), np.zeros(len(values), bool)
-    text = column.astype(str).str.strip()
-    lowered = text.str.lower()
-    missing = (text == "").to_numpy() | column.isna().to_numpy() | lowered.isin(_MISSING_WORDS).to_numpy()
+    text, missing = _cells(column)
     values = pd.to_numeric(text.where(~missing, None), errors="coerce").to_numpy(dtype=float, na_value=np.nan)
     nonnumeric = np.isnan(values) & ~missing
     return values, missing, nonnumeric
 
 
+def _cells(column: pd.Series) -> tuple[pd.Series, np.ndarray]:
+    """A column of text cells, stripped, and its missing mask (empty, NaN or a missing word)."""
+    text = column.astype(str).str.strip()
+    missing = (text == "").to_numpy() | column.isna().to_numpy()
+    # Only cells as short as a missing word can be one (lower case keeps the length).
+    short = np.flatnonzero((text.str.len() <= _MISSING_LENGTH).to_numpy())
+    missing[short] |= text.iloc[short].str.lower().isin(_MISSING_WORDS).to_numpy()
+    return text, missing
+
+
+#: Cells of a time column tried as numbers before the whole column is (see :func:`_times`).
+_TIME_PROBE = 20
+
+
 def _times(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Parse times to seconds since 1970 UTC: (seconds, missing mask, unreadable mask)."""
+    """Parse times to seconds since 1970 UTC: (seconds, missing mask, unreadable mask).
+
+    A column whose every present cell is a number holds seconds; any other is read as ISO 8601
+    text. One cell that is not a number settles it, so the first few present cells are tried
+    first and a column of ISO 8601 times is never parsed as numbers in full (which is slow:
+    every cell fails). The result is the same as parsing every cell as a number first.
+    """
     if pd.api.types.is_datetime64_any_dtype(column):
         parsed = pd.to_datetime(column, utc=True)
         seconds = (parsed - pd.Timestamp("1970-01-01", tz="UTC")).dt.total_seconds().to_numpy(dtype=float)
         missing = np.isnan(seconds)
         return seconds, missing, np.zeros(len(seconds), bool)
-    numeric, missing, nonnumeric = _numbers(column)
-    if not nonnumeric.any():
+    if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
+        numeric, missing, _ = _numbers(column)
         return numeric, missing, ~missing & ~np.isfinite(numeric)
-    text = column.astype(str).str.strip()
+    text, missing = _cells(column)
+    probe = text.iloc[np.flatnonzero(~missing)[:_TIME_PROBE]]
+    if not pd.to_numeric(probe, errors="coerce").isna().any():
+        numeric, missing, nonnumeric = _numbers(column)
+        if not nonnumeric.any():
+            return numeric, missing, ~missing & ~np.isfinite(numeric)
     parsed = pd.to_datetime(text.where(~missing, None), utc=True, errors="coerce", format="ISO8601")
     seconds = (parsed - pd.Timestamp("1970-01-01", tz="UTC")).dt.total_seconds().to_numpy(dtype=float)
     return seconds, missing, np.isnan(seconds) & ~missing
@@ -275,6 +314,7 @@ def assemble_stations(
     coordinate_names: tuple[str, str] = ("lon", "lat"),
     reasons: np.ndarray | None = None,
     degrees: bool = True,
+    cell_text: Callable[[str, int], str] | None = None,
 ) -> Survey:
     """Validate a table with columns line, lon, lat, [time], fields; assign statuses.
 
@@ -292,24 +332,31 @@ def assemble_stations(
     degrees : bool
         Whether ``lon``/``lat`` are degrees as given by the user (and so may be projected or
         swapped by mistake); False for coordinates already converted from a declared CRS.
+    cell_text : callable, optional
+        ``cell_text(column, position)``: a cell of ``frame`` as the user wrote it, for the
+        examples in warnings and errors; by default the cell of ``frame`` itself.
     """
     n = len(frame)
-    reason = np.full(n, "", dtype=object)
+    # The reason of each row as a number: 0 for none, else its place in ``labels``.
+    labels: dict[str, int] = {"": 0}
+    reason = np.zeros(n, dtype=np.int32)
     if reasons is not None:
-        reason[:] = np.asarray(reasons, dtype=object)
+        given, texts = pd.factorize(np.asarray(reasons, dtype=object))
+        reason = np.array([labels.setdefault(str(t), len(labels)) for t in texts], dtype=np.int32)[given]
     if blank is None:
         blank = np.zeros(n, bool)
     notes: list[str] = []
     rows = np.asarray(rows, dtype=np.int64)
 
     def mark(mask, text):
-        fresh = mask & (reason == "")
-        reason[fresh] = text
+        fresh = mask & (reason == 0)
+        if fresh.any():
+            reason[fresh] = labels.setdefault(text, len(labels))
 
     mark(blank, "blank line")
     no_line = frame["line"].isna().to_numpy()
-    line = frame["line"].fillna("").astype(str).str.strip().to_numpy(dtype=object)
-    mark(no_line | np.isin(line, ["", "nan", "None", "<NA>"]), "missing line id")
+    line = frame["line"].fillna("").astype(str).str.strip()
+    mark(no_line | line.isin(["", "nan", "None", "<NA>"]).to_numpy(), "missing line id")
 
     lon, lon_missing, lon_text = _numbers(frame["lon"])
     lat, lat_missing, lat_text = _numbers(frame["lat"])
@@ -317,12 +364,12 @@ def assemble_stations(
     mark(lon_text | lat_text, "non-numeric coordinate")
     mark(~np.isfinite(lon) | ~np.isfinite(lat), "non-finite coordinate")
     if projected:
-        finite = np.isfinite(lon) & np.isfinite(lat) & (reason == "")
+        finite = np.isfinite(lon) & np.isfinite(lat) & (reason == 0)
         _check_not_degrees(lon, lat, finite, source, coordinate_names, crs)
         lon, lat = to_geographic(lon, lat, crs, source)
         mark(finite & ~(np.isfinite(lon) & np.isfinite(lat)), "coordinate outside the CRS area")
     elif degrees:
-        _check_degrees(lon, lat, reason == "", source, coordinate_names, rows)
+        _check_degrees(lon, lat, reason == 0, source, coordinate_names, rows)
     with np.errstate(invalid="ignore"):
         out_of_range = (np.abs(lat) > 90) | (lon < -180) | (lon > 360)
     mark(out_of_range, "coordinate out of range")
@@ -343,26 +390,31 @@ def assemble_stations(
     values = {}
     for name in fields:
         values[name] = _field(
-            name, frame[name], requested=required_fields, mark=mark, rows=rows, source=source, notes=notes
+            name,
+            frame[name],
+            requested=required_fields,
+            mark=mark,
+            rows=rows,
+            source=source,
+            notes=notes,
+            cell=(lambda position, name=name: cell_text(name, position)) if cell_text else None,
         )
 
-    good = reason == ""
-    status = np.where(good, USED, DROPPED).astype(object)
     stations = pd.DataFrame(
         {
             "source": source,
             "row": rows,
-            "line": line.astype(str),
+            "line": pd.array(line, dtype=str),
             "lon": np.where(np.isfinite(lon), lon, np.nan),
             "lat": np.where(np.isfinite(lat), lat, np.nan),
             "time": time,
-            "status": status,
-            "reason": reason,
+            "status": pd.array([USED, DROPPED], dtype=str).take((reason != 0).astype(np.intp)),
+            "reason": pd.array(list(labels), dtype=str).take(reason),
         }
     )
     for name in fields:
         stations[name] = values[name]
-    stations, moved = _order(stations, has_time)
+    stations, moved = _order(stations, has_time, reason == 0)
     if moved:
         notes.append(
             f"{source}: {moved} stations are not in time order in the file; "
@@ -373,11 +425,14 @@ def assemble_stations(
     if not (survey.stations["status"] == USED).any():
         accounting = survey.accounting
         reasons_text = ", ".join(f"{k}: {v}" for k, v in sorted(accounting.dropped.items()))
-        text_cells = np.flatnonzero(reason == "non-numeric coordinate")
+        text_cells = np.flatnonzero(reason == labels.get("non-numeric coordinate", -1))
         example = ""
         if text_cells.size:
             i = int(text_cells[0])
-            cells = (str(frame["lon"].iloc[i]).strip(), str(frame["lat"].iloc[i]).strip())
+            if cell_text is not None:
+                cells = (cell_text("lon", i), cell_text("lat", i))
+            else:
+                cells = (str(frame["lon"].iloc[i]).strip(), str(frame["lat"].iloc[i]).strip())
             example = (
                 f"; e.g. row {rows[i]}: {coordinate_names[0]} '{cells[0]}', {coordinate_names[1]} "
                 f"'{cells[1]}': coordinates must be decimal numbers"
@@ -386,8 +441,13 @@ def assemble_stations(
     return survey
 
 
-def _field(name, column, *, requested: bool, mark, rows, source: str, notes: list[str]) -> np.ndarray:
-    """Values of one field; unusable ones are dropped (requested) or kept as missing."""
+def _field(
+    name, column, *, requested: bool, mark, rows, source: str, notes: list[str], cell=None
+) -> np.ndarray:
+    """Values of one field; unusable ones are dropped (requested) or kept as missing.
+
+    ``cell(position)`` gives a cell as written, for the examples (by default the cell itself).
+    """
     values, missing, text = _numbers(column)
     kind = field_kind(name)
     with np.errstate(invalid="ignore"):
@@ -410,7 +470,7 @@ def _field(name, column, *, requested: bool, mark, rows, source: str, notes: lis
         count = int(np.count_nonzero(mask))
         if not count:
             continue
-        cells = [_cell_text(v) for v in column.to_numpy()[mask][:3]]
+        cells = [_example(column, values, text, int(i), cell) for i in np.flatnonzero(mask)[:3]]
         examples = ", ".join(f"{r} ({v})" for r, v in zip(rows[mask][:3], cells, strict=True))
         examples = ("row " if count == 1 else "rows ") + examples + (", ..." if count > 3 else "")
         what = f"1 value {one}" if count == 1 else f"{count} values {many.replace('is ', 'are ', 1)}"
@@ -427,6 +487,14 @@ def _field(name, column, *, requested: bool, mark, rows, source: str, notes: lis
         mark(missing, f"missing value in {name}")
     bad = text | infinite | no_data | beyond
     return np.where(bad | ~np.isfinite(values), np.nan, values)
+
+
+def _example(column: pd.Series, values: np.ndarray, text: np.ndarray, position: int, cell) -> str:
+    """A cell shown in a warning: a number as read (``1e+12``, ``inf``), other text as written,
+    whether the column was read as numbers or as text."""
+    if not text[position]:
+        return _cell_text(float(values[position]))
+    return cell(position) if cell is not None else _cell_text(column.iloc[position])
 
 
 def _cell_text(value) -> str:
@@ -471,22 +539,41 @@ def _check_not_degrees(x, y, valid, source, names, crs) -> None:
         )
 
 
-def _order(stations: pd.DataFrame, has_time: bool) -> tuple[pd.DataFrame, int]:
+def _order(stations: pd.DataFrame, has_time: bool, used: np.ndarray) -> tuple[pd.DataFrame, int]:
     """Order stations by line (first appearance), then time (where present), then file row.
 
-    Returns the ordered table and the number of used stations whose place within their line
-    differs from file order because of their time.
+    Returns the ordered table and the number of used stations (``used``) whose place within
+    their line differs from file order because of their time.
     """
     codes, _ = pd.factorize(stations["line"], sort=False)
     row = stations["row"].to_numpy()
-    by_row = np.lexsort((row, codes))
+    by_row = _sort_order(codes, row)
     if not has_time:
-        return stations.iloc[by_row], 0
+        return (stations if by_row is None else stations.iloc[by_row]), 0
     time = np.nan_to_num(stations["time"].to_numpy(), nan=np.inf)
-    by_time = np.lexsort((row, time, codes))
-    used = stations["status"].to_numpy() == USED
+    by_time = _sort_order(codes, time, row)
+    if by_time is None and by_row is None:
+        return stations, 0
+    in_order = np.arange(len(row))
+    by_row = in_order if by_row is None else by_row
+    ordered = stations if by_time is None else stations.iloc[by_time]
+    by_time = in_order if by_time is None else by_time
     moved = int(np.count_nonzero(by_time[used[by_time]] != by_row[used[by_row]]))
-    return stations.iloc[by_time], moved
+    return ordered, moved
+
+
+def _sort_order(*keys: np.ndarray) -> np.ndarray | None:
+    """``numpy.lexsort`` of the keys, first key first; None when that order is the identity
+    (the rows already in order: a stable sort leaves them in place)."""
+    ordered = np.zeros(max(len(keys[0]) - 1, 0), dtype=bool)
+    tied = np.ones_like(ordered)
+    for key in keys:
+        before, after = key[:-1], key[1:]
+        ordered |= tied & (after > before)
+        tied &= after == before
+    if np.all(ordered | tied):
+        return None
+    return np.lexsort(keys[::-1])
 
 
 def is_geographic(crs, source: str) -> bool:

@@ -97,12 +97,22 @@ def _utf16_without_bom(raw: bytes) -> str | None:
     return None
 
 
-def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
+def read_text(path: Path, *, line_column: str | None = None, fast: bool = True) -> RawTable:
     """Read a delimited text file into a :class:`~profiles.stations.RawTable` of text cells.
 
     Rows with another number of fields than the header, and blank rows, get their reason here.
     With a delimiter other than the comma, decimal commas are read as points in every column
     that uses them throughout, except the line column (``line_column`` or a line alias).
+
+    Parameters
+    ----------
+    fast : bool
+        True (the default): the row layout (fields per row, blank rows, repeated headers) is
+        found with array operations on the bytes of the file and the cells are parsed by the
+        pandas C parser, numbers straight to float64; a file whose layout or quoting that
+        parser would read differently falls back to the careful path. False: the careful path
+        only, one row per line split by the :mod:`csv` module, every cell as text; slow, and
+        the reference the fast path is tested against. Both give the same survey.
     """
     source = str(path)
     try:
@@ -117,9 +127,10 @@ def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
     text, notes = _decode(raw, source)
     if "\x00" in text[:65536]:
         raise InputError(f"{source}: binary content; expected a delimited text file with a header row")
-    lines = _NEWLINE.split(text)
-    if lines and lines[-1] == "":
-        lines.pop()  # the newline that ends the last row
+    if "\r" in text:
+        # The line ends of _NEWLINE (CR LF, CR, LF) as LF: the same lines, split by one character.
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    lines = _Lines(text)
 
     # Preamble: blank lines, comment lines, an Excel "sep=;" line.
     delimiter = None
@@ -134,15 +145,15 @@ def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
         first += 1
     if first == len(lines):
         raise InputError(f"{source}: holds only comments; expected a header row and data rows")
-    header, body = lines[first], lines[first + 1 :]
+    header = lines[first]
     if delimiter is None:
-        delimiter = _detect_delimiter(header, body, source=source, line=first + 1)
+        delimiter = _detect_delimiter(header, lines.after(first, 200), source=source, line=first + 1)
     names = [name.strip() for name in _split(header, delimiter)]
     commented = _commented_header(lines, first, delimiter, len(names))
     if commented is not None and any(_is_number(name) for name in names):
         # "# lon lat depth" above the first row of numbers: the comment is the header.
         first -= 1
-        header, body, names = lines[first], lines[first + 1 :], commented
+        header, names = lines[first], commented
         notes.append(f"{source}: line {first + 1} is a commented header; its names are the columns")
     if not any(names):
         raise InputError(f"{source}: line {first + 1} holds no column names; expected a header row")
@@ -151,20 +162,36 @@ def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
             f"{source}: line {first + 1} holds numbers, not column names; "
             f"expected a header row such as 'line,lon,lat,depth_m'"
         )
-    if not any(line.strip() for line in body):
+    body_text = lines.body(first)
+    if not body_text.strip():
         raise InputError(
             f"{source}: has a header row ({len(names)} columns) but no data rows; "
             f"expected one row per station below the header"
         )
     names = [name or f"column_{i + 1}" for i, name in enumerate(names)]
     names, duplicates = _unique_names(names)
+    line_names = {normalise(n) for n in (*ALIASES["line"], line_column or "")}
+    text_names = line_names | {normalise(n) for n in ALIASES["time"]}
+    as_text = [normalise(n) in text_names for n in names]
 
-    blank = np.array([not line.strip() for line in body], dtype=bool)
-    stripped_header = header.strip()
-    repeated = np.array([line.strip() == stripped_header for line in body], dtype=bool)
-    counts = _field_counts(body, delimiter)
-    ragged = ~blank & ~repeated & (counts != len(names))
-    reasons = np.full(len(body), "", dtype=object)
+    parsed = None
+    if fast and delimiter != " " and len(delimiter.encode("utf-8")) == 1 and delimiter not in '\n"':
+        layout = _Layout(body_text, delimiter, header.strip())
+        blank, repeated = layout.blank, layout.repeated
+        ragged = ~blank & ~repeated & (layout.counts != len(names))
+        parsed = _fast_table(layout, ~ragged & ~blank & ~repeated, names, as_text)
+    if parsed is not None:
+        table, cell = parsed
+    else:
+        cell = None
+        body = body_text.split("\n")
+        blank = np.array([not line.strip() for line in body], dtype=bool)
+        stripped_header = header.strip()
+        repeated = np.array([line.strip() == stripped_header for line in body], dtype=bool)
+        counts = _field_counts(body, delimiter)
+        ragged = ~blank & ~repeated & (counts != len(names))
+        table = _parse_cells(body, ~ragged & ~blank & ~repeated, names, delimiter)
+    reasons = np.full(len(blank), "", dtype=object)
     reasons[blank] = "blank line"
     reasons[repeated] = "repeated header"
     reasons[ragged] = "wrong number of fields"
@@ -175,14 +202,11 @@ def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
         )
     if ragged.any():
         rows = np.flatnonzero(ragged) + first + 2
+        verb = "does" if len(rows) == 1 else "do"
         notes.append(
-            f"{source}: {rows_text(rows)} do not have {len(names)} fields separated by "
+            f"{source}: {rows_text(rows)} {verb} not have {len(names)} fields separated by "
             f"{delimiter_name(delimiter)} like the header; dropped"
         )
-    line_names = {normalise(n) for n in (*ALIASES["line"], line_column or "")}
-    text_names = line_names | {normalise(n) for n in ALIASES["time"]}
-    as_text = [normalise(n) in text_names for n in names]
-    table = _parse_cells(body, ~ragged & ~blank & ~repeated, names, delimiter, as_text)
     if delimiter != ",":
         numeric = [n for n in names if normalise(n) not in line_names]
         converted = _decimal_commas(table, numeric)
@@ -191,8 +215,188 @@ def read_text(path: Path, *, line_column: str | None = None) -> RawTable:
                 f"{source}: decimal commas read as decimal points in {', '.join(converted)} "
                 f"(the file is separated by {delimiter_name(delimiter)})"
             )
-    rows = np.arange(len(body)) + first + 2  # file line numbers; the header is line first + 1
-    return RawTable(table, rows, reasons, notes, duplicates)
+    rows = np.arange(len(blank)) + first + 2  # file line numbers; the header is line first + 1
+    return RawTable(table, rows, reasons, notes, duplicates, cells=cell)
+
+
+class _Lines:
+    """The lines of a text whose line ends are LF, split only as far as they are asked for.
+
+    ``lines[i]`` and ``len(lines)`` are those of ``text.split("\\n")`` without the empty
+    string after a final newline (that newline ends the last row, it is no blank row).
+    """
+
+    def __init__(self, text: str):
+        self.text = text
+        self._starts = [0]  # offset of each line found so far
+        self._end = len(text) - 1 if text.endswith("\n") else len(text)
+        self._count = text.count("\n", 0, self._end) + 1 if text else 0
+
+    def __len__(self) -> int:
+        return self._count
+
+    def _start(self, i: int) -> int:
+        while len(self._starts) <= i:
+            self._starts.append(self.text.index("\n", self._starts[-1]) + 1)
+        return self._starts[i]
+
+    def __getitem__(self, i: int) -> str:
+        if not 0 <= i < self._count:
+            raise IndexError(i)
+        start = self._start(i)
+        stop = self.text.find("\n", start, self._end)
+        return self.text[start : self._end if stop < 0 else stop]
+
+    def after(self, i: int, count: int) -> list[str]:
+        """Up to ``count`` lines after line ``i``."""
+        return [self[j] for j in range(i + 1, min(i + 1 + count, self._count))]
+
+    def body(self, i: int) -> str:
+        """The lines after line ``i`` as one text, joined by LF (no final newline)."""
+        if i + 1 >= self._count:
+            return ""
+        return self.text[self._start(i + 1) : self._end]
+
+
+#: Bytes that may begin a line of blanks: ASCII white space (as :meth:`str.strip` sees it) and
+#: the lead bytes of UTF-8 sequences (U+0085, U+00A0, U+2000 ... are white space too).
+_MAY_BE_BLANK = np.zeros(256, dtype=bool)
+_MAY_BE_BLANK[[9, 10, 11, 12, 13, 28, 29, 30, 31, 32]] = True
+_MAY_BE_BLANK[128:] = True
+
+
+class _Layout:
+    """The rows of a body of text found by array operations on its UTF-8 bytes.
+
+    ``blank``, ``repeated`` and ``counts`` (fields per row) are those of the careful path, one
+    entry per line. A line is blank only if its first character is white space, so only such
+    lines are tested with :meth:`str.strip`; only lines holding a quote are split by the
+    :mod:`csv` module (``quoted``), and only lines holding the header text are compared with it.
+    """
+
+    def __init__(self, body_text: str, delimiter: str, header: str):
+        self.delimiter = delimiter
+        self.data = data = body_text.encode("utf-8")
+        codes = np.frombuffer(data, dtype=np.uint8)
+        newlines = np.flatnonzero(codes == 10)
+        self.starts = starts = np.concatenate([[0], newlines + 1])
+        self.ends = ends = np.append(newlines, len(data))
+        # Delimiters before the end of each line; those of line i lie between ends i-1 and i.
+        before_end = np.searchsorted(np.flatnonzero(codes == ord(delimiter)), ends)
+        self.counts = np.diff(before_end, prepend=0) + 1
+        quotes = np.flatnonzero(codes == ord('"'))
+        self.quoted = np.unique(np.searchsorted(starts, quotes, side="right") - 1)
+        for i in self.quoted:
+            self.counts[i] = len(self.fields(i))
+        self.blank = np.zeros(len(starts), dtype=bool)
+        maybe = (starts == ends) | _MAY_BE_BLANK[codes[np.minimum(starts, len(data) - 1)]]
+        for i in np.flatnonzero(maybe):
+            self.blank[i] = not self.line(i).strip()
+        self.repeated = np.zeros(len(starts), dtype=bool)
+        target = header.encode("utf-8")
+        at = data.find(target)
+        while at >= 0:
+            i = int(np.searchsorted(starts, at, side="right") - 1)
+            self.repeated[i] = self.line(i).strip() == header
+            at = data.find(target, int(ends[i]))
+
+    def line(self, i: int) -> str:
+        return self.data[self.starts[i] : self.ends[i]].decode("utf-8")
+
+    def fields(self, i: int) -> list[str]:
+        return _split(self.line(i), self.delimiter)
+
+    def without(self, bad: np.ndarray) -> bytes:
+        """The bytes with the lines flagged ``bad`` emptied (their line ends kept)."""
+        bad = np.flatnonzero(bad)
+        if not bad.size:
+            return self.data
+        keep_from = np.concatenate([[0], self.ends[bad]]).tolist()
+        keep_to = np.append(self.starts[bad], len(self.data)).tolist()
+        return b"".join(self.data[a:b] for a, b in zip(keep_from, keep_to, strict=True))
+
+
+def _fast_table(layout: _Layout, good: np.ndarray, names: list[str], as_text: list[bool]):
+    """The cells of the good rows by the pandas C parser, and the cells as written.
+
+    A column of numbers comes as float64 (``inf`` included), any other column as text, empty
+    cells as NaN; columns flagged ``as_text`` (line ids, times) are always text, so that
+    ``007`` stays ``007``. Other rows get empty cells (their reason is set).
+
+    Returns ``(table, cell)``, ``cell(position, name)`` being the text of a cell as the careful
+    path reads it (see :class:`~profiles.stations.RawTable`), or None when the parser may read
+    the text otherwise than the :mod:`csv` module: NUL characters, a byte-order mark, a row
+    count other than one per line (a quote left open swallows later lines), or a line with
+    quotes whose cells differ from the module's.
+    """
+    data = layout.without(~good)
+    if b"\x00" in data or data.startswith(codecs.BOM_UTF8):
+        return None
+    options = dict(
+        sep=layout.delimiter,
+        header=None,
+        keep_default_na=False,
+        na_values=[""],
+        skip_blank_lines=False,
+        low_memory=False,  # one type per column, not one per chunk of rows
+        engine="c",
+    )
+    try:
+        table = pd.read_csv(io.BytesIO(data), encoding="utf-8", names=list(range(len(names))), **options)
+        for i in [i for i, text in enumerate(as_text) if text and not _is_text(table[i])]:
+            # Line ids or times that read as numbers: again as text ("007" stays "007").
+            again = pd.read_csv(
+                io.BytesIO(data),
+                encoding="utf-8",
+                names=list(range(len(names))),
+                usecols=[i],
+                dtype=str,
+                **options,
+            )
+            table[i] = again[i]
+    except (pd.errors.ParserError, ValueError):
+        return None
+    if len(table) != len(good):
+        return None
+    table.columns = names
+    quoted = layout.quoted[good[layout.quoted]]
+    if quoted.size and not _same_cells(table, quoted, [layout.fields(i) for i in quoted]):
+        return None
+
+    def cell(position: int, name: str) -> str:
+        column = table[name]
+        if _is_text(column):
+            value = column.iloc[position]
+            return "" if pd.isna(value) else str(value).strip()
+        if not good[position]:
+            return ""
+        return layout.fields(position)[names.index(name)].strip()
+
+    return table, cell
+
+
+def _is_text(column: pd.Series) -> bool:
+    return isinstance(column.dtype, pd.StringDtype)
+
+
+def _same_cells(table: pd.DataFrame, positions: np.ndarray, rows: list[list[str]]) -> bool:
+    """Whether the cells of ``table`` at ``positions`` are those of ``rows`` (split text): the
+    same text, or the same number as :func:`pandas.to_numeric` reads from the text."""
+    for j, name in enumerate(table.columns):
+        cells = pd.Series([row[j] for row in rows], dtype=object)
+        column = table[name].iloc[positions]
+        empty = (cells == "").to_numpy()
+        if _is_text(column):
+            same = np.where(empty, column.isna(), column.to_numpy(dtype=object) == cells.to_numpy())
+        elif pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
+            values = column.to_numpy(dtype=float, na_value=np.nan)
+            parsed = pd.to_numeric(cells.str.strip(), errors="coerce").to_numpy(dtype=float)
+            same = np.where(empty, np.isnan(values), values == parsed)
+        else:
+            return False
+        if not np.all(same):
+            return False
+    return True
 
 
 def _commented_header(lines: list[str], first: int, delimiter: str, width: int) -> list[str] | None:
@@ -254,38 +458,10 @@ def _field_counts(lines: list[str], delimiter: str) -> np.ndarray:
     return counts
 
 
-def _parse_cells(
-    body: list[str], good: np.ndarray, names: list[str], delimiter: str, as_text: list[bool]
-) -> pd.DataFrame:
-    """Cells of the good rows; other rows get empty cells (their reason is set).
-
-    The fast parser reads a column of numbers as float64 (``inf`` included) and any other
-    column as text, with empty cells as NaN; columns flagged ``as_text`` (line ids, times) are
-    always text, so that ``007`` stays ``007``. The slow path gives text everywhere.
-    """
-    width = len(names)
-    if delimiter != " ":
-        kept = "\n".join(line if ok else "" for line, ok in zip(body, good, strict=True))
-        try:
-            table = pd.read_csv(
-                io.StringIO(kept),
-                sep=delimiter,
-                header=None,
-                names=list(range(width)),
-                dtype={i: str for i, text in enumerate(as_text) if text},
-                keep_default_na=False,
-                na_values=[""],
-                skip_blank_lines=False,
-                engine="c",
-            )
-        except (pd.errors.ParserError, ValueError):
-            table = None
-        if table is not None and len(table) == len(body):
-            table.columns = names
-            return table
-    # Whitespace-separated files, and text the fast parser reads differently (an unclosed
-    # quote swallowing later lines): one row per line, always.
-    empty = [""] * width
+def _parse_cells(body: list[str], good: np.ndarray, names: list[str], delimiter: str) -> pd.DataFrame:
+    """Cells of the good rows as text, one row per line, split by the :mod:`csv` module (or at
+    runs of whitespace); other rows get empty cells (their reason is set)."""
+    empty = [""] * len(names)
     cells = [_split(line, delimiter) if ok else empty for line, ok in zip(body, good, strict=True)]
     return pd.DataFrame(cells, columns=names, dtype=str)
 
