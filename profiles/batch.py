@@ -430,10 +430,28 @@ def _collect(client, tasks: list[dict], records: dict, *, progress: bool) -> Non
             }
 
 
+#: Settings of the local cluster's workers. Their statistical profiler (for the dashboard,
+#: which the batch does not use) samples every thread's stack every 10 ms, and glibc's
+#: MALLOC_TRIM_THRESHOLD_, which Dask's nanny sets to 64 KiB by default, also fixes the mmap
+#: threshold, so that every large temporary array is mapped and its pages faulted afresh:
+#: together they made the fall-off fit, many small numpy calls, 1.5x slower in a worker than
+#: in a plain process (docs/performance.md). A worker holds one file at a time, so the
+#: memory the trim threshold returns early is little (the benchmark shows the peak).
+LOCAL_WORKER_CONFIG = {
+    "distributed.worker.profile.enabled": False,
+    "distributed.nanny.pre-spawn-environ": {
+        "OMP_NUM_THREADS": 1,
+        "MKL_NUM_THREADS": 1,
+        "OPENBLAS_NUM_THREADS": 1,
+    },
+}
+
+
 @contextmanager
 def dask_client(*, workers: int, scheduler: str | None):
     """A ``distributed.Client`` on a running scheduler, or on a local cluster of ``workers``
     single-threaded worker processes that is closed on the way out."""
+    import dask
     from distributed import Client, LocalCluster
 
     if scheduler is not None:
@@ -449,13 +467,14 @@ def dask_client(*, workers: int, scheduler: str | None):
     # ":0": the scheduler's HTTP server on any free port, so two clusters never clash.
     # Worker logs are silenced: a worker that loses the scheduler while the cluster closes
     # logs a traceback, and what goes wrong with a file is in its record anyway.
-    cluster = LocalCluster(
-        n_workers=workers,
-        threads_per_worker=1,
-        processes=True,
-        dashboard_address=":0",
-        silence_logs=logging.CRITICAL,
-    )
+    with dask.config.set(LOCAL_WORKER_CONFIG):
+        cluster = LocalCluster(
+            n_workers=workers,
+            threads_per_worker=1,
+            processes=True,
+            dashboard_address=":0",
+            silence_logs=logging.CRITICAL,
+        )
     try:
         client = Client(cluster)
         try:
