@@ -726,6 +726,21 @@ def _local_steps(station_distance: np.ndarray, start: np.ndarray, end: np.ndarra
 
 
 def _range_reduce(ufunc: np.ufunc, values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """``ufunc.reduce(values[lo_i:hi_i])`` for every i (lo_i < hi_i), each value read once.
+
+    As in :func:`_range_count`, the distinct ends of all ranges cut ``values`` into pieces
+    that no range end falls inside; one ``reduceat`` reduces every piece, and each range is
+    then the reduction of its run of pieces (:func:`_reduce_runs`), a few per range however
+    much the ranges overlap. For an exact reduction such as ``maximum`` the result is the
+    same number as reducing the range directly.
+    """
+    ends = np.unique(np.concatenate([lo, hi]))
+    starts = ends[ends < values.size]
+    pieces = ufunc.reduceat(values, starts)
+    return _reduce_runs(ufunc, pieces, np.searchsorted(starts, lo), np.searchsorted(starts, hi))
+
+
+def _reduce_runs(ufunc: np.ufunc, values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     """``ufunc.reduce(values[lo_i:hi_i])`` for every i (lo_i < hi_i), in one ``reduceat``.
 
     The bounds are interleaved, so the even results are the ranges wanted. A range that
@@ -888,7 +903,7 @@ def _rolloff_share(variance: np.ndarray, total: np.ndarray, *, n: int, spacing: 
         left, right = int(low[rows].min()) + 1, int(high[rows].max()) + 1
         part = variance[rows, left:right]
         base = np.arange(rows.size) * (right - left) - left
-        band[rows] = _range_reduce(np.add, part.reshape(-1), base + low[rows] + 1, base + high[rows] + 1)
+        band[rows] = _reduce_runs(np.add, part.reshape(-1), base + low[rows] + 1, base + high[rows] + 1)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(total > 0, band / np.where(total > 0, total, 1.0), 0.0)
 
