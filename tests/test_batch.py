@@ -29,6 +29,13 @@ ARGS = ("--field", FIELD, "--window", "8km", "--shortest-wavelength", "2km")
 OPTIONS = BatchOptions(field=FIELD, window=8000.0, shortest_wavelength=2000.0)
 
 
+def task_for(item, out) -> dict:
+    """The task run_batch submits for one found file (``item``) with OPTIONS."""
+    return {"path": str(item.path), "file": item.relative, "id": item.id, "size": item.size,
+            "mtime_ns": item.mtime_ns, "out": str(out), "options": OPTIONS.to_json(),
+            "options_key": OPTIONS.key()}
+
+
 @pytest.fixture(scope="module")
 def scheduler():
     import logging
@@ -263,16 +270,7 @@ def test_failure_inside_the_writer_leaves_no_part(archive, tmp_path, monkeypatch
     _, good = archive
     out = tmp_path / "out"
     (item,) = find_survey_files([good[0]]).files
-    task = {
-        "path": str(item.path),
-        "file": item.relative,
-        "id": item.id,
-        "size": item.size,
-        "mtime_ns": item.mtime_ns,
-        "out": str(out),
-        "options": OPTIONS.to_json(),
-        "options_key": OPTIONS.key(),
-    }
+    task = task_for(item, out)
     written = []
 
     def fail_on_second_part(self, path, **kwargs):  # the disk fills up half-way through a part
@@ -424,18 +422,7 @@ def test_a_track_across_the_antimeridian_is_cut_there(tmp_path):
     )
     (item,) = find_survey_files([path]).files
     out = tmp_path / "out"
-    record = analyse_file(
-        {
-            "path": str(item.path),
-            "file": item.relative,
-            "id": item.id,
-            "size": item.size,
-            "mtime_ns": item.mtime_ns,
-            "out": str(out),
-            "options": OPTIONS.to_json(),
-            "options_key": OPTIONS.key(),
-        }
-    )
+    record = analyse_file(task_for(item, out))
     assert record["status"] == "done", record["reason"]
     (line,) = geopandas.read_parquet(part_paths(out, item.id)[0]).geometry
     assert line.geom_type == "MultiLineString"
