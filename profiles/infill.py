@@ -20,6 +20,8 @@ from typing import TYPE_CHECKING
 import numpy as np
 import pandas as pd
 
+from .stretches import stretches_text
+
 if TYPE_CHECKING:
     from .geometry import Segment, Segments
     from .spacing import AliasBudget
@@ -92,7 +94,7 @@ class InfillStretches:
 
     def __str__(self) -> str:
         head = (
-            f"{len(self)} stretches of {self.field} spaced more coarsely than recommended for at most "
+            f"{stretches_text(len(self))} of {self.field} spaced more coarsely than recommended for at most "
             f"{100 * self.tolerance:g} % aliased power at {self.shortest_wavelength / 1e3:g} km"
         )
         parts = [

@@ -31,7 +31,7 @@ from .budget import DEFAULT_TOLERANCE, aliased_variance_fraction, contamination,
 from .errors import InputError
 from .falloff import MIN_SAMPLES, FalloffKind, FalloffModel, fit_falloff
 from .geometry import Segment, Segments
-from .stretches import homogeneous_stretches
+from .stretches import homogeneous_stretches, stretches_text
 from .tables import clean, records
 
 SEGMENT_COLUMNS = (
@@ -516,7 +516,8 @@ def alias_budget(
     coarse = stretches[stretches["exceeds_recommendation"].eq(True)]
     if len(coarse):
         warnings.append(
-            f"{len(coarse)} stretches of {field} are spaced more coarsely than recommended for at most "
+            f"{stretches_text(len(coarse))} of {field} {'is' if len(coarse) == 1 else 'are'} spaced more "
+            "coarsely than recommended for at most "
             f"{100 * tolerance:g} % aliased power at {shortest_wavelength / 1e3:.4g} km"
         )
     return AliasBudget(

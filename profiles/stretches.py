@@ -283,3 +283,8 @@ def _merge_similar(bounds: np.ndarray, log_step: np.ndarray, threshold: float) -
             break
         del bounds[closest + 1]
     return np.asarray(bounds, dtype=np.intp)
+
+
+def stretches_text(count: int) -> str:
+    """``"1 stretch"`` or ``"3 stretches"``, for messages."""
+    return f"{count} stretch" if count == 1 else f"{count} stretches"
