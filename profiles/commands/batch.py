@@ -6,6 +6,8 @@ import argparse
 
 from .common import (
     add_alpha,
+    add_budget_arguments,
+    add_longest_wavelength,
     add_output_arguments,
     add_shortest_wavelength,
     add_spacing,
@@ -14,7 +16,6 @@ from .common import (
     print_json,
     report_warnings,
 )
-from .spacing import fraction
 
 NAME = "batch"
 HELP = "spacing audit, spectra and windows of every file of an archive, on Dask"
@@ -41,33 +42,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     target = parser.add_argument_group("targets")
     add_shortest_wavelength(target, help="shortest wavelength you need to resolve, e.g. 4km")
-    target.add_argument(
-        "--longest-wavelength",
-        type=length("--longest-wavelength"),
-        metavar="LENGTH",
-        help="longest wavelength asked about; flags segments shorter than two cycles of it",
-    )
-    budget = parser.add_argument_group("aliasing budget (as profiles spacing --field)")
-    budget.add_argument(
-        "--alias-tolerance",
-        type=fraction,
-        default=0.01,
-        metavar="FRACTION",
-        help="largest acceptable aliased power at the shortest wavelength, as a fraction "
-        "of the true power there (default 0.01)",
-    )
-    budget.add_argument(
-        "--potential-field",
-        action="store_true",
-        help="the field is a potential field: fit an exponential fall-off, not a power law",
-    )
-    budget.add_argument(
-        "--fit-band",
-        nargs=2,
-        type=length("--fit-band"),
-        metavar=("LONGEST", "SHORTEST"),
-        help="wavelengths bounding the fall-off fit (default: chosen automatically)",
-    )
+    add_longest_wavelength(target)
+    add_budget_arguments(parser, title="aliasing budget (as profiles spacing --field)", fit_band=True)
     analysis = parser.add_argument_group("spectra and windows")
     add_spacing(analysis)
     add_alpha(analysis)

@@ -80,6 +80,44 @@ def add_shortest_wavelength(
     )
 
 
+def add_longest_wavelength(group) -> None:
+    """``--longest-wavelength``: flags segments shorter than two cycles of it."""
+    group.add_argument(
+        "--longest-wavelength",
+        type=length("--longest-wavelength"),
+        metavar="LENGTH",
+        help="longest wavelength asked about; flags segments shorter than two cycles of it",
+    )
+
+
+def add_budget_arguments(parser: argparse.ArgumentParser, *, title: str, fit_band: bool = True) -> None:
+    """The aliasing budget's options: ``--alias-tolerance``, ``--potential-field`` and, with
+    ``fit_band``, ``--fit-band``."""
+    budget = parser.add_argument_group(title)
+    budget.add_argument(
+        "--alias-tolerance",
+        type=fraction("--alias-tolerance"),
+        default=0.01,
+        metavar="FRACTION",
+        help="largest acceptable aliased power at the shortest wavelength, as a fraction of the "
+        "true power there (default 0.01)",
+    )
+    budget.add_argument(
+        "--potential-field",
+        action="store_true",
+        help="the field is a potential field (gravity, magnetics): fit an exponential fall-off "
+        "exp(-4 pi h k) instead of a power law",
+    )
+    if fit_band:
+        budget.add_argument(
+            "--fit-band",
+            nargs=2,
+            type=length("--fit-band"),
+            metavar=("LONGEST", "SHORTEST"),
+            help="wavelengths bounding the fall-off fit, e.g. 20km 1km (default: chosen automatically)",
+        )
+
+
 def add_spacing(group, *, help: str = "resampling spacing (default: each segment's median spacing)") -> None:
     """``--spacing``: the spacing of the uniform grid the stations are resampled onto."""
     group.add_argument("--spacing", type=length("--spacing"), metavar="LENGTH", help=help)

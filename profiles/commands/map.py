@@ -6,6 +6,7 @@ import argparse
 
 from .common import (
     add_alpha,
+    add_budget_arguments,
     add_output_arguments,
     add_shortest_wavelength,
     add_survey_arguments,
@@ -93,21 +94,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="flag 'near-nyquist' when the dominant wavelength is below FACTOR x the local Nyquist "
         "wavelength (default 1.25)",
     )
-    budget = parser.add_argument_group("aliasing budget (with --shortest-wavelength)")
-    budget.add_argument(
-        "--alias-tolerance",
-        type=fraction("--alias-tolerance"),
-        default=0.01,
-        metavar="FRACTION",
-        help="largest acceptable aliased power at the shortest wavelength, as a fraction of the "
-        "true power there (default 0.01)",
-    )
-    budget.add_argument(
-        "--potential-field",
-        action="store_true",
-        help="the field is a potential field (gravity, magnetics): fit an exponential fall-off "
-        "exp(-4 pi h k) instead of a power law",
-    )
+    add_budget_arguments(parser, title="aliasing budget (with --shortest-wavelength)", fit_band=False)
     drawing = parser.add_argument_group("map")
     drawing.add_argument(
         "--map-crs",

@@ -5,18 +5,15 @@ from __future__ import annotations
 import argparse
 
 from .common import (
+    add_budget_arguments,
+    add_longest_wavelength,
     add_output_arguments,
     add_shortest_wavelength,
     add_survey_arguments,
-    length,
     load,
     print_json,
     report_warnings,
 )
-from .common import fraction as fraction_of
-
-#: argparse type of ``--alias-tolerance`` (the batch command uses it too).
-fraction = fraction_of("--alias-tolerance")
 
 NAME = "spacing"
 HELP = "audit station spacing per segment against the wavelengths you need"
@@ -65,34 +62,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_survey_arguments(parser, field="optional")
     target = parser.add_argument_group("targets")
     add_shortest_wavelength(target, help="shortest wavelength you need to resolve, e.g. 4km")
-    target.add_argument(
-        "--longest-wavelength",
-        type=length("--longest-wavelength"),
-        metavar="LENGTH",
-        help="longest wavelength asked about; flags segments shorter than two cycles of it",
-    )
-    budget = parser.add_argument_group("aliasing budget (with --field)")
-    budget.add_argument(
-        "--alias-tolerance",
-        type=fraction,
-        default=0.01,
-        metavar="FRACTION",
-        help="largest acceptable aliased power at the shortest wavelength, as a fraction of the "
-        "true power there (default 0.01)",
-    )
-    budget.add_argument(
-        "--potential-field",
-        action="store_true",
-        help="the field is a potential field (gravity, magnetics): fit an exponential fall-off "
-        "exp(-4 pi h k) instead of a power law",
-    )
-    budget.add_argument(
-        "--fit-band",
-        nargs=2,
-        type=length("--fit-band"),
-        metavar=("LONGEST", "SHORTEST"),
-        help="wavelengths bounding the fall-off fit, e.g. 20km 1km (default: chosen automatically)",
-    )
+    add_longest_wavelength(target)
+    add_budget_arguments(parser, title="aliasing budget (with --field)", fit_band=True)
     add_output_arguments(parser)
 
 
