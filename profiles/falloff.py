@@ -714,20 +714,19 @@ def fit_falloff_spectra(
     """
     if model not in get_args(FalloffKind):
         raise InputError(f"model: {model!r} is not one of {', '.join(get_args(FalloffKind))}")
-    start, moved = 0.0, []
+    bins, moved = _select_bins(spectra, band), []
     while True:
-        fitted, excess = _fit_bins(_select_bins(spectra, band, start), model)
+        fitted, excess = _fit_bins(bins, model)
         if band is not None or excess is None or len(moved) == PEAK_ROUNDS:
             break
         peak = _highest_peak(*excess)
         if peak is None:
             break
-        start = peak + max(spectrum.resolution for spectrum in spectra)
-        moved.append(peak)
         try:
-            _select_bins(spectra, band, start)
-        except InputError:  # too few bins above the peak: keep the fit below it
+            bins = _select_bins(spectra, band, peak + max(spectrum.resolution for spectrum in spectra))
+        except InputError:  # too few bins above the peak: keep the fit that includes it
             break
+        moved.append(peak)
     if moved:
         fitted = replace(fitted, message=f"{fitted.message}; band starts above the spectral peak at "
                                           f"{1e-3 / moved[-1]:.4g} km wavelength")
