@@ -82,11 +82,17 @@ SIGNIFICANCE_Z = 2.0
 MIN_DROP = 2.0
 #: Likelihood ratio beyond which a noise floor is kept (5 %, boundary parameter).
 FLOOR_LIKELIHOOD_RATIO = 2.706
+#: Starting floors of the fit with a floor (natural logs of a fraction of the median density
+#: of the top quarter of the band: a half, then 2 %), the second tried only when the first
+#: finds no floor worth keeping.
+FLOOR_STARTS = (np.log(0.5), np.log(0.02))
 #: A bin is a spectral peak when it exceeds the fitted model with this false-alarm
 #: probability, shared among the bins (Bonferroni).
 PEAK_FALSE_ALARM = 1e-3
 #: The automatic band is moved above peaks at most this many times.
 PEAK_ROUNDS = 3
+#: Largest step of ln C or ln N0 in one Newton iteration of the fit with a floor.
+MAX_LOG_STEP = 5.0
 
 #: Field kinds (as in a survey configuration or :func:`profiles.columns.field_kind`) whose
 #: spectra fall off exponentially.
@@ -523,12 +529,7 @@ class _Problem:
             return found
         log_c, z = theta[0], theta[1]
         signal = log_c + self.log_shape(z, folded)
-        if len(theta) == 2:
-            value = signal
-        else:
-            if "floor_scale" not in self.memo:
-                self.memo["floor_scale"] = np.log(self.bins.spacing / self.reference_spacing)
-            value = np.logaddexp(signal, theta[2] + self.memo["floor_scale"])
+        value = signal if len(theta) == 2 else np.logaddexp(signal, theta[2] + self._floor_scale())
         value.flags.writeable = False
         self.memo[key] = value
         return value
@@ -562,67 +563,143 @@ class _Problem:
         log_f = self.log_shape(z, folded)
         if not np.isfinite(log_f).all():
             return 1e300, 0.0
-        if "weighted_psd" not in self.memo:
-            self.memo["weighted_psd"] = (self.bins.weight * self.bins.psd, np.sum(self.bins.weight))
-        weighted_psd, total_weight = self.memo["weighted_psd"]
+        weighted_psd, total_weight = self._weighted_psd()
         log_c = float(np.log(np.sum(weighted_psd * np.exp(-log_f)) / total_weight))
         return self.objective(np.array([log_c, z]), folded), log_c
 
+    def _weighted_psd(self):
+        if "weighted_psd" not in self.memo:
+            self.memo["weighted_psd"] = (self.bins.weight * self.bins.psd, float(np.sum(self.bins.weight)))
+        return self.memo["weighted_psd"]
+
+    def profiled_slope(self, z: float, folded: bool) -> tuple[float, float]:
+        """Derivative in z of the objective with C at its optimum (no floor), and its curvature.
+
+        With L = ln F, L' its slope and p_j = w_j S_j e^(-L_j) / sum w S e^(-L):
+        dQ/dz = sum_j w_j L'_j - W sum_j p_j L'_j (W = sum w; by the envelope theorem, C being
+        optimal), and the curvature W var_p(L'), exact where L'' = 0 (the plain model) and the
+        data-weighted information otherwise. NaN where the model is undefined.
+        """
+        log_f = self.log_shape(z, folded)
+        if not np.isfinite(log_f).all():
+            return float("nan"), float("nan")
+        slope = self.shape_slope(z, folded)
+        weighted_psd, total_weight = self._weighted_psd()
+        share = weighted_psd * np.exp(-(log_f - log_f.min()))
+        share /= share.sum()
+        mean = float(share @ slope)
+        derivative = float(self.bins.weight @ slope) - total_weight * mean
+        return derivative, total_weight * max(float(share @ (slope * slope)) - mean * mean, 0.0)
+
     def fit_without_floor(self, bounds, folded: bool) -> np.ndarray:
         """(ln C, z) minimising the profiled objective: the best point of a grid over the
-        bounds (17 geometric or 13 even steps), refined by Brent's bounded search between its
-        neighbours."""
-        from scipy.optimize import minimize_scalar
-
-        wide = bounds[0] > 0 and bounds[1] > 100 * bounds[0]
-        grid = np.geomspace(*bounds, 17) if wide else np.linspace(bounds[0], bounds[1], 13)
+        bounds (:meth:`shape_grid`), refined by safeguarded Newton steps on the profiled
+        derivative between its neighbours (:func:`_minimum_between`)."""
+        grid = self.shape_grid(bounds)
         values = self.profiled(grid, folded)[0]
-        best = int(np.argmin(values))
-        lo, hi = grid[max(best - 1, 0)], grid[min(best + 1, grid.size - 1)]
-        found = minimize_scalar(
-            lambda z: self.profiled_at(z, folded)[0],
-            bounds=(lo, hi),
-            method="bounded",
-            options={"xatol": 1e-6 * max(1.0, abs(grid[best]))},
-        )
-        z = float(found.x) if found.fun <= values[best] else float(grid[best])
+        z = _minimum_between(lambda z: self.profiled_slope(z, folded), grid, int(np.argmin(values)),
+                             lambda z: self.profiled_at(z, folded)[0], float(np.min(values)))
         return np.array([self.profiled_at(z, folded)[1], z])
 
-    def fit_with_floor(self, start: np.ndarray, bounds) -> np.ndarray:
-        """(ln C, z, ln N0) by Fisher scoring from two starting floors (half the median of the
-        top quarter of the band, and 2 % of it); the better end point."""
-        top = self.bins.psd[self.bins.wavenumber >= np.quantile(self.bins.wavenumber, 0.75)]
-        level = float(np.log(np.median(top)))
-        limits = np.array([[-np.inf, np.inf], bounds, [level - 12.0, level + 3.0]])
-        ends = [self.scoring(np.array([start[0], start[1], level + shift]), limits) for shift in (-0.7, -4.0)]
-        return min(ends, key=lambda theta: self.objective(theta, True))
+    @staticmethod
+    def shape_grid(bounds) -> np.ndarray:
+        """17 geometric steps over the bounds where they span more than a factor of 100, else 13
+        even steps."""
+        wide = bounds[0] > 0 and bounds[1] > 100 * bounds[0]
+        return np.geomspace(*bounds, 17) if wide else np.linspace(bounds[0], bounds[1], 13)
 
-    def scoring(self, theta: np.ndarray, limits: np.ndarray, iterations: int = 60) -> np.ndarray:
-        """Fisher scoring for the Whittle likelihood of the folded model with floor:
-        theta += I^-1 sum_j w_j g_j (S_j/M_j - 1), halved until the objective decreases."""
-        theta = np.clip(theta, limits[:, 0], limits[:, 1])
-        value = self.objective(theta, True)
+    def floor_level(self) -> float:
+        """ln of the median of the top quarter of the band (normalised densities): where the
+        floor's starts and limits are placed."""
+        top = self.bins.psd[self.bins.wavenumber >= np.quantile(self.bins.wavenumber, 0.75)]
+        return float(np.log(np.median(top)))
+
+    def fit_with_floor(self, plain: np.ndarray, bounds, *, start: float) -> np.ndarray:
+        """(ln C, z, ln N0) minimising the objective of the folded model with a floor, by
+        Newton's method (:meth:`newton`) from the fit without a floor, ``plain`` = (ln C, z),
+        and a floor ``start`` (natural log) times the median of the top quarter of the band.
+        ln N0 is kept within 12 below and 3 above that median, z within ``bounds``."""
+        level = self.floor_level()
+        limits = np.array([[-np.inf, np.inf], bounds, [level - 12.0, level + 3.0]])
+        ends, _ = self.newton(np.array([[plain[0], plain[1], level + start]]), limits)
+        return ends[0]
+
+    def newton(self, theta: np.ndarray, limits: np.ndarray, *, iterations: int = 60):
+        """Minimise the objective of the folded model with a floor from several starts at once
+        (rows of ``theta``, parameters (ln C, z, ln N0)), within ``limits`` (one row per
+        parameter).
+
+        Newton's method with the Hessian
+
+            H = sum_j w_j [r_j g_j g_j^T + u_j A_j B_j h_j h_j^T]
+
+        (g = dlnM/dtheta, r = S/M, u = 1 - r, A and B the shares of signal and floor in M,
+        h = (1, L', -1)), which is exact but for the term sum w u A L'' of the shape's own
+        second derivative; where it is not positive definite, the Fisher information
+        sum w g g^T (Fisher scoring). Steps are cut to at most MAX_LOG_STEP in ln C and
+        ln N0 and halved until the objective does not increase; a start stops when the
+        decrease the quadratic model predicts, g'H^-1 g / 2, falls below 1e-12 of the
+        objective, or when no step along the direction lowers it. A floor held at its lower
+        limit is no floor: that start stops there. The shapes of all starts are evaluated in
+        one call per step. Returns the end points and their objectives.
+        """
+        theta = np.clip(np.array(theta, dtype=float), limits[:, 0], limits[:, 1])
+        count = theta.shape[0]
+        weight, psd, floor_scale = self.bins.weight, self.bins.psd, self._floor_scale()
+        values = np.array([self.objective(row, True) for row in theta])
+        active = np.ones(count, dtype=bool)
         for _ in range(iterations):
-            g = self.gradients(theta, True)
-            residual = self.bins.psd * np.exp(-self.log_model(theta, True)) - 1.0
-            information = (g * self.bins.weight) @ g.T
+            rows = np.flatnonzero(active)
+            if rows.size == 0:
+                break
+            log_f = self.log_shapes(theta[rows, 1], True)
+            slope = np.array([self.shape_slope(z, True) for z in theta[rows, 1]])
+            signal = theta[rows, 0, np.newaxis] + log_f
+            noise = theta[rows, 2, np.newaxis] + floor_scale
+            log_m = np.logaddexp(signal, noise)
+            share = np.exp(signal - log_m)
+            ratio = psd * np.exp(-log_m)
+            residual = weight * (1.0 - ratio)
+            g = np.stack([share, share * slope, 1.0 - share], axis=1)  # (rows, 3, bins)
+            h = np.stack([np.ones_like(slope), slope, -np.ones_like(slope)], axis=1)
+            gradient = np.einsum("rpj,rj->rp", g, residual)
+            hessian = (np.einsum("rpj,rqj,rj->rpq", g, g, weight * ratio)
+                       + np.einsum("rpj,rqj,rj->rpq", h, h, residual * share * (1.0 - share)))
+            fisher = np.einsum("rpj,rqj,j->rpq", g, g, weight)
+            smallest = np.linalg.eigvalsh(hessian)[:, 0]
+            definite = smallest > 1e-12 * np.abs(hessian).max(axis=(1, 2))
+            hessian[~definite] = fisher[~definite]
             try:
-                step = np.linalg.solve(information, (g * self.bins.weight) @ residual)
+                step = np.linalg.solve(hessian, gradient[..., np.newaxis])[..., 0]
             except np.linalg.LinAlgError:
                 break
+            finished = ~np.all(np.isfinite(step), axis=1)
+            predicted = 0.5 * np.einsum("rp,rp->r", gradient, step)
+            finished |= predicted <= 1e-12 * np.maximum(1.0, np.abs(values[rows]))
+            finished |= theta[rows, 2] <= limits[2, 0]  # a floor at its lower limit is no floor
+            active[rows[finished]] = False
+            rows, step = rows[~finished], step[~finished]
+            scale = np.minimum(1.0, MAX_LOG_STEP / np.maximum(np.abs(step[:, 0]), np.abs(step[:, 2])))
+            pending = np.arange(rows.size)
             for _halving in range(30):
-                trial = np.clip(theta + step, limits[:, 0], limits[:, 1])
-                trial_value = self.objective(trial, True)
-                if trial_value <= value:
+                if pending.size == 0:
                     break
-                step = step / 2.0
-            else:
-                break
-            converged = value - trial_value < 1e-10 * max(1.0, abs(value))
-            theta, value = trial, trial_value
-            if converged or theta[2] <= limits[2, 0]:  # a floor at its lower limit is no floor
-                break
-        return theta
+                trial = np.clip(theta[rows[pending]] - scale[pending, np.newaxis] * step[pending],
+                                limits[:, 0], limits[:, 1])
+                self.log_shapes(trial[:, 1], True)  # every new shape in one call
+                trial_values = np.array([self.objective(row, True) for row in trial])
+                accepted = trial_values <= values[rows[pending]]
+                taken = rows[pending[accepted]]
+                theta[taken], values[taken] = trial[accepted], trial_values[accepted]
+                pending = pending[~accepted]
+                scale[pending] /= 2.0
+            active[rows[pending]] = False  # no decrease along the step: as good as it gets
+        return theta, values
+
+    def _floor_scale(self) -> np.ndarray:
+        if "floor_scale" not in self.memo:
+            self.memo["floor_scale"] = np.log(self.bins.spacing / self.reference_spacing)
+        return self.memo["floor_scale"]
 
     def gradients(self, theta, folded: bool) -> np.ndarray:
         """d ln M / d theta at every bin, shape (n_params, n_bins), analytic (the shape's by
@@ -660,6 +737,57 @@ class _Problem:
         g = self.gradients(theta, True)[2] ** 2
         return float(np.sum(g * self.bins.inflation) / np.sum(g * self.bins.weight))
 
+
+def _minimum_between(slope, grid: np.ndarray, best: int, value, best_value: float, *,
+                     rtol: float = 1e-6) -> float:
+    """The z minimising a one-dimensional objective near ``grid[best]``, the best grid point.
+
+    ``slope(z)`` gives the objective's derivative and curvature, ``value(z)`` the objective.
+    The minimum is bracketed between the best point and the neighbour where the derivative
+    has the other sign, and found by Newton steps kept inside the bracket, bisecting where a
+    step would leave it or not halve the error fast enough (``rtsafe`` of Press, Teukolsky,
+    Vetterling and Flannery 2007, "Numerical Recipes", 3rd ed., section 9.4, from memory), to
+    within ``rtol`` max(1, |z|). A best point at either end of the grid whose derivative
+    points outwards is the answer (the minimum lies on the bound). Where the derivative gives
+    no bracket, a bounded Brent search of ``value`` between the two neighbours
+    (``scipy.optimize.minimize_scalar``) is used instead. The grid point is kept if the result
+    is not better.
+    """
+    z = float(grid[best])
+    tolerance = rtol * max(1.0, abs(z))
+    derivative, curvature = slope(z)
+    if not np.isfinite(derivative) or derivative == 0.0:
+        return z
+    if (derivative > 0 and best == 0) or (derivative < 0 and best == grid.size - 1):
+        return z
+    neighbour = float(grid[best - 1] if derivative > 0 else grid[best + 1])
+    lo, hi = (neighbour, z) if derivative > 0 else (z, neighbour)
+    bracketed = (slope(neighbour)[0] < 0) if derivative > 0 else (slope(neighbour)[0] > 0)
+    step = previous = hi - lo
+    while bracketed:
+        newton = (curvature > 0
+                  and ((z - hi) * curvature - derivative) * ((z - lo) * curvature - derivative) < 0
+                  and abs(2.0 * derivative) <= abs(previous * curvature))
+        previous = step
+        step = derivative / curvature if newton else z - 0.5 * (lo + hi)
+        z -= step
+        if abs(step) < tolerance:
+            break
+        derivative, curvature = slope(z)
+        if not np.isfinite(derivative):
+            bracketed = False
+        elif derivative < 0:
+            lo = z
+        elif derivative > 0:
+            hi = z
+        else:
+            break
+    if not bracketed:
+        from scipy.optimize import minimize_scalar
+
+        ends = (float(grid[max(best - 1, 0)]), float(grid[min(best + 1, grid.size - 1)]))
+        z = float(minimize_scalar(value, bounds=ends, method="bounded", options={"xatol": tolerance}).x)
+    return z if value(z) <= best_value else float(grid[best])
 
 def fit_falloff(
     values,
@@ -798,10 +926,14 @@ def _fit_bins(bins: _Bins, model: FalloffKind):
 
     # 2. Folded model, without and with a floor.
     plain = problem.fit_without_floor(folded_bounds, folded=True)
-    with_floor = problem.fit_with_floor(plain, folded_bounds)
-    ratio = 2.0 * (problem.objective(plain, True) - problem.objective(with_floor, True))
-    ratio /= problem.floor_inflation(with_floor)
-    floor_seen = ratio > FLOOR_LIKELIHOOD_RATIO
+    floor_seen = False
+    for start in FLOOR_STARTS:  # the next starting floor only while none is worth keeping
+        with_floor = problem.fit_with_floor(plain, folded_bounds, start=start)
+        ratio = 2.0 * (problem.objective(plain, True) - problem.objective(with_floor, True))
+        ratio /= problem.floor_inflation(with_floor)
+        if ratio > FLOOR_LIKELIHOOD_RATIO:
+            floor_seen = True
+            break
     theta = with_floor if floor_seen else plain
     shape, shape_err = theta[1] / z_scale, problem.shape_error(theta, folded=True)
     noise_floor = float(np.exp(theta[2])) * scale if floor_seen else 0.0

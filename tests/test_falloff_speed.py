@@ -1,9 +1,8 @@
-"""The fast paths of the fall-off fit: cached DPSS tapers, the image sum built for many beta, and
-the analytic slopes of the fit's model, each against an outside reference.
+"""The fast paths of the fall-off fit: the image sum built for many beta, and the analytic slopes
+of the fit's model, each against an outside reference (the tapers: tests/test_tapers.py).
 
-References named beside each check: scipy.signal.windows.dpss (the tapers and their
-concentrations), scipy.special.zeta and mpmath.zeta / mpmath.diff (the Hurwitz zeta closed
-form of the power-law image sum and its derivative in beta).
+References named beside each check: scipy.special.zeta and mpmath.zeta / mpmath.diff (the
+Hurwitz zeta closed form of the power-law image sum and its derivative in beta).
 """
 
 from __future__ import annotations
@@ -12,38 +11,9 @@ import mpmath
 import numpy as np
 import pytest
 from scipy import special
-from scipy.signal.windows import dpss
 
 from profiles.budget import PowerLawImageSum
 from profiles.falloff import _Problem, _select_bins, piece_spectrum
-from profiles.spectral.psd import dpss_tapers, multitaper_coefficients
-
-
-@pytest.mark.parametrize("count, nw, n_tapers", [(64, 2.5, 4), (999, 4.0, 7), (4096, 3.0, 5)])
-def test_cached_tapers_are_scipys(count, nw, n_tapers):
-    # scipy.signal.windows.dpss itself, symmetric, unit energy, with the concentration ratios
-    tapers, ratios = dpss(count, nw, n_tapers, sym=True, norm=2, return_ratios=True)
-    cached, concentrations = dpss_tapers(count, nw, n_tapers)
-    np.testing.assert_allclose(cached, tapers, rtol=0, atol=1e-14)
-    np.testing.assert_allclose(concentrations, ratios, rtol=0, atol=1e-15)
-    again = dpss_tapers(count, nw, n_tapers)
-    assert again[0] is cached  # computed once per (N, NW, K)
-
-
-def test_cached_tapers_cannot_be_modified():
-    tapers, concentrations = dpss_tapers(128, 4.0, 7)
-    with pytest.raises(ValueError, match="read-only"):
-        tapers[0, 0] = 1.0
-    with pytest.raises(ValueError, match="read-only"):
-        concentrations[0] = 0.0
-    eigen = multitaper_coefficients(np.arange(128.0) ** 1.5, spacing=10.0, nw=4.0)
-    with pytest.raises(ValueError, match="read-only"):
-        eigen.tapers *= 2.0
-    with pytest.raises(ValueError, match="read-only"):
-        eigen.eigenvalues[:] = 1.0
-    # and what the next caller gets is still scipy's
-    reference = dpss(128, 4.0, 7, sym=True, norm=2)
-    np.testing.assert_allclose(dpss_tapers(128, 4.0, 7)[0], reference, rtol=0, atol=1e-14)
 
 
 def test_image_sum_matches_the_zeta_closed_form():

@@ -23,7 +23,6 @@ Both are scaled so that ``onesided * mean(|C|^2)`` (Welch) or the weighted mean 
 
 from __future__ import annotations
 
-import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -41,6 +40,7 @@ from .preprocess import (
     taper_label,
     taper_weights,
 )
+from .tapers import dpss_tapers
 
 __all__ = [
     "ConfidenceFactors",
@@ -667,36 +667,6 @@ class MultitaperCoefficients:
     def n_tapers(self) -> int:
         """Number of tapers K."""
         return int(self.eigenvalues.size)
-
-
-#: Taper sets kept by :func:`dpss_tapers` (each K x N floats: 0.56 MB for 7 tapers of 10,000).
-DPSS_CACHE_SIZE = 16
-
-
-@functools.lru_cache(maxsize=DPSS_CACHE_SIZE)
-def dpss_tapers(count: int, nw: float, n_tapers: int) -> tuple[np.ndarray, np.ndarray]:
-    """The first ``n_tapers`` DPSS tapers of ``count`` samples and their concentrations, cached.
-
-    ``scipy.signal.windows.dpss(count, nw, n_tapers, sym=True, norm=2, return_ratios=True)``
-    (Slepian 1978: the eigenvectors of the symmetric tridiagonal matrix of Percival and Walden
-    1993, section 8.3, unit energy), computed once per (N, NW, K): the tridiagonal eigensolver
-    costs far more than the tapered transforms, and the segments of a survey often share their
-    length. The arrays are read-only, so that no caller can alter what the next one gets.
-
-    Returns
-    -------
-    tapers : ndarray, shape (K, N), read-only
-    concentrations : ndarray, shape (K,), read-only
-        lambda_k, the share of each taper's energy in |f| <= W.
-    """
-    from scipy.signal.windows import dpss
-
-    tapers, concentrations = dpss(int(count), float(nw), int(n_tapers), sym=True, norm=2, return_ratios=True)
-    tapers = np.ascontiguousarray(tapers, dtype=np.float64)
-    concentrations = np.array(concentrations, dtype=np.float64)
-    tapers.flags.writeable = False
-    concentrations.flags.writeable = False
-    return tapers, concentrations
 
 
 def multitaper_coefficients(
