@@ -310,6 +310,9 @@ class PieceSpectrum:
         Multitaper bandwidth 2W (cycles per metre).
     n : int
         Samples of the piece.
+    bin_weight : float
+        Fourier bins per bin of this spectrum: N/M when the N differences were zero-padded to
+        M samples for a fast transform (the finer grid only interpolates), else 1.
     """
 
     wavenumber: np.ndarray
@@ -318,6 +321,7 @@ class PieceSpectrum:
     spacing: float
     resolution: float
     n: int
+    bin_weight: float = 1.0
 
     def to_frame(self) -> pd.DataFrame:
         """Columns ``wavenumber_per_km``, ``wavelength_km``, ``psd_per_cycle_per_km`` and
@@ -358,10 +362,16 @@ def piece_spectrum(values, *, spacing: float, nw: float = FIT_NW) -> PieceSpectr
     equally weighted tapers at NW = 4 and up to 2.8 where the first taper alone carries
     the estimate; the fit's standard errors use it.
     """
+    from scipy.fft import next_fast_len
+
     from .spectral.psd import adaptive_weights, multitaper_coefficients
 
     dx = float(spacing)
-    eigen = multitaper_coefficients(np.diff(np.asarray(values, dtype=float)), spacing=dx, nw=nw)
+    differences = np.diff(np.asarray(values, dtype=float))
+    # Zero-padded to a length with small prime factors: a transform of a prime length costs
+    # about fifteen times more, and the finer grid only interpolates (bin_weight N/M).
+    length = next_fast_len(differences.size, real=True)
+    eigen = multitaper_coefficients(differences, spacing=dx, nw=nw, n_fft=length)
     spectra = eigen.coefficients.real**2 + eigen.coefficients.imag**2
     weights = adaptive_weights(eigen)
     share = weights / weights.sum(axis=0)
@@ -371,7 +381,8 @@ def piece_spectrum(values, *, spacing: float, nw: float = FIT_NW) -> PieceSpectr
     squares = eigen.tapers**2
     overlap = squares @ squares.T  # G_kl = sum_t h_k(t)^2 h_l(t)^2
     inflation = eigen.n * np.einsum("kf,kl,lf->f", share, overlap, share)
-    return PieceSpectrum(eigen.wavenumber, psd, inflation, dx, 2.0 * eigen.half_bandwidth, eigen.n + 1)
+    return PieceSpectrum(eigen.wavenumber, psd, inflation, dx, 2.0 * eigen.half_bandwidth, eigen.n + 1,
+                         bin_weight=eigen.n / length)
 
 
 @dataclass(frozen=True)
@@ -426,10 +437,12 @@ def _select_bins(spectra: Sequence, band, start: float = 0.0) -> _Bins:
         else:
             keep &= (k >= 1.0 / longest) & (k <= 1.0 / shortest)
         chosen = np.flatnonzero(keep)
-        count += chosen.size
+        count += chosen.size * spectrum.bin_weight  # in Fourier bins
         if chosen.size:
             group_k, group_psd, weight, inflation = _group(k[chosen], psd[chosen], spectrum.inflation[chosen])
-            parts.append((group_k, group_psd, np.full(group_k.size, dx), weight, inflation))
+            parts.append((group_k, group_psd, np.full(group_k.size, dx), weight * spectrum.bin_weight,
+                          inflation * spectrum.bin_weight))
+    count = round(count)
     if count < MIN_BINS:
         raise InputError(
             f"fall-off: only {count} spectral bins in the band (at least {MIN_BINS} needed); "
