@@ -16,7 +16,9 @@ Per file
    test (:func:`profiles.analysis.resample_field`, :func:`profiles.analysis.analyse_segment`);
 4. sliding windows along the resampled segments (:func:`profiles.windows.along_track_windows`);
 5. ``windows/part-<id>.parquet`` then ``segments/part-<id>.parquet`` written as GeoParquet
-   (EPSG:4326), each to a temporary name in its folder and renamed into place. The segments
+   (EPSG:4326) straight from the arrays (:func:`profiles.gis.geoparquet_table`: what
+   geopandas' ``to_parquet`` writes for the layer, without building it), each to a temporary
+   name in its folder and renamed into place. The segments
    part is written last: it marks the file finished, and it carries the file's record (row
    accounting, counts, warnings) in its metadata so a later run can skip the file and still
    report it.
@@ -288,9 +290,9 @@ def _analyse_and_write(task: dict, options, clock: _Clock, record: dict) -> dict
     }
     segments_path, windows_path = part_paths(task["out"], task["id"])
     # The output layers, geometries included, are built here, at write time, in this process.
-    write_part(_window_layer(task["file"], table), windows_path, attrs)
-    layer = _segment_layer(task["file"], segments, audit, spectra, notes, options.field)
-    write_part(layer, segments_path, attrs)  # last: it marks the file finished
+    write_part(_window_part(task["file"], table), windows_path, attrs)
+    part = _segment_part(task["file"], segments, audit, spectra, notes, options.field)
+    write_part(part, segments_path, attrs)  # last: it marks the file finished
     clock.lap("write")
     return result
 
@@ -310,13 +312,33 @@ def _windows(pairs, options):
     )
 
 
-def _segment_layer(file: str, segments, audit, spectra, notes, field: str):
+@dataclass(frozen=True)
+class PartLayer:
+    """What a part holds: its columns, their dtypes and its lines.
+
+    Attributes
+    ----------
+    columns : dict
+        Column name -> values, in order.
+    kinds : dict
+        Column name -> pandas dtype name (``string``, ``int64``, ``Int64``, ``float64``,
+        ``boolean``); fixed per layer, so that every part of a folder, with rows or without,
+        has the same schema.
+    lines : profiles.gis.LineColumn
+        One line per row, as WKB.
+    """
+
+    columns: dict
+    kinds: dict
+    lines: object
+
+
+def _segment_part(file: str, segments, audit, spectra, notes, field: str) -> PartLayer:
     """The spacing audit's rows (with the aliasing budget's columns) and the spectral summary
     of each analysed segment, on the lines of :func:`profiles.gis.segment_layer`."""
-    from .gis import segment_layer
+    from .gis import segment_lines
 
-    frame = audit.segments_table().copy()
-    frame.insert(0, "file", file)
+    frame = audit.segments_table()
     by_label = {(r.uniform.line, r.uniform.number): r for r in spectra}
     skipped = [(s.line, s.number) for s in segments if (s.line, s.number) not in by_label]
     # resample_field gives one warning per segment it leaves out, in segment order.
@@ -326,13 +348,15 @@ def _segment_layer(file: str, segments, audit, spectra, notes, field: str):
         result = by_label.get((line, number))
         rows.append(_spectrum_row(result, field, why.get((line, number), "not analysed")))
     spectral = pd.DataFrame(rows, columns=list(SPECTRUM_COLUMNS), index=frame.index)
-    frame = pd.concat([frame, spectral], axis=1)
+    columns = {"file": [file] * len(frame), **{name: frame[name] for name in frame.columns},
+               **{name: spectral[name] for name in SPECTRUM_COLUMNS}}
     # Text columns are named, so that an empty part (no segment of the lines asked for) types
     # them alike; the others follow from their values.
     text = {name: "string" for name in ("file", "line", "recommendation_basis", "falloff_model")}
-    frame = _typed(frame, {**text, "segment": "int64", "n_stations": "int64", "aliasing_risk": "boolean",
-                           "too_short": "boolean", **SPECTRUM_COLUMNS})
-    return _with_geometry(frame, segment_layer(segments, audit).geometry.to_numpy())
+    named = {**text, "segment": "int64", "n_stations": "int64", "aliasing_risk": "boolean",
+             "too_short": "boolean", **SPECTRUM_COLUMNS}
+    kinds = {name: named.get(name) or _kind(values) for name, values in columns.items()}
+    return PartLayer(columns, kinds, segment_lines(segments))
 
 
 def _spectrum_row(result, field: str, note: str) -> dict:
@@ -352,32 +376,32 @@ def _spectrum_row(result, field: str, note: str) -> dict:
     }
 
 
-def _window_layer(file: str, table):
-    """The window table (:data:`profiles.windows.COLUMNS`, ``reasons`` as ``a,b`` text) on the
-    lines of :func:`profiles.gis.window_layer`."""
-    from .gis import window_layer
+def _window_kinds() -> dict[str, str]:
+    """Columns of a windows part and their dtypes: ``file``, then :data:`profiles.windows.COLUMNS`."""
     from .windows import COLUMNS
 
-    if table is None or len(table) == 0:
-        frame, geometry = pd.DataFrame({name: [] for name in COLUMNS}), np.array([], dtype=object)
-    else:
-        layer = window_layer(table)
-        frame, geometry = pd.DataFrame(layer.drop(columns=layer.geometry.name)), layer.geometry.to_numpy()
-    frame.insert(0, "file", file)
-    kinds = {name: "float64" for name in frame.columns}  # an empty table must still type alike
-    kinds.update(file="string", line="string", reasons="string", segment="int64", n_samples="int64",
+    kinds = {"file": "string", **{name: "float64" for name in COLUMNS}}
+    kinds.update(line="string", reasons="string", segment="int64", n_samples="int64",
                  dominant_harmonic="int64", red_noise_significant="boolean", aliasing_risk="boolean")
-    return _with_geometry(_typed(frame, kinds), geometry)
+    return kinds
 
 
-def _typed(frame: pd.DataFrame, kinds: dict) -> pd.DataFrame:
-    """Columns cast to fixed dtypes, so that every part of a folder has the same schema,
-    whether a column is empty or not: ``kinds`` names some; the others get ``int64``,
-    ``float64``, ``boolean`` or ``string`` from what they hold (all empty: ``float64``)."""
-    return frame.astype({name: kinds.get(name) or _kind(frame[name]) for name in frame.columns})
+def _window_part(file: str, table) -> PartLayer:
+    """The window table (``reasons`` as ``a,b`` text) on the lines of
+    :func:`profiles.gis.window_layer`."""
+    from .gis import paths_wkb, window_attributes, window_lines
+
+    kinds = _window_kinds()
+    if table is None or len(table) == 0:
+        return PartLayer({name: [] for name in kinds}, kinds, paths_wkb([]))
+    frame = window_attributes(table)
+    columns = {"file": [file] * len(frame), **{name: frame[name] for name in list(kinds)[1:]}}
+    return PartLayer(columns, kinds, window_lines(table))
 
 
 def _kind(column: pd.Series) -> str:
+    """The dtype of a column that :func:`_segment_part` does not name, from what it holds:
+    ``boolean``, ``int64``, ``float64`` or ``string`` (all missing: ``float64``)."""
     if pd.api.types.is_bool_dtype(column):
         return "boolean"
     if pd.api.types.is_integer_dtype(column):
@@ -392,26 +416,20 @@ def _kind(column: pd.Series) -> str:
     return "string"
 
 
-def _with_geometry(frame: pd.DataFrame, geometry: np.ndarray):
-    """A GeoDataFrame in EPSG:4326 (:data:`profiles.gis.CRS`)."""
-    import geopandas
+def write_part(layer: PartLayer, final: Path, attrs: dict) -> Path:
+    """Write a part as GeoParquet (EPSG:4326) with ``attrs`` in its metadata, atomically.
 
-    from .gis import CRS
-
-    return geopandas.GeoDataFrame(frame, geometry=geopandas.GeoSeries(geometry, index=frame.index, crs=CRS))
-
-
-def write_part(layer, final: Path, attrs: dict) -> Path:
-    """Write a layer as GeoParquet with ``attrs`` in its metadata, atomically.
-
-    The geometries are those of the project's GIS layers (:mod:`profiles.gis`): a line that
-    crosses the antimeridian is cut there into a MultiLineString, every longitude within
-    [-180, 180].
+    The file is what ``geopandas.GeoDataFrame.to_parquet`` writes for the layer as a
+    GeoDataFrame with ``attrs`` under ``DataFrame.attrs[ATTRS_KEY]``
+    (:func:`profiles.gis.geoparquet_table`), built straight from the arrays. The geometries are
+    those of the project's GIS layers (:mod:`profiles.gis`): a line that crosses the
+    antimeridian is cut there into a MultiLineString, every longitude within [-180, 180].
     """
+    from .gis import geoparquet_table, write_geoparquet
     from .outputs import write_with
 
-    layer.attrs[ATTRS_KEY] = attrs
-    return write_with(final, lambda temporary: layer.to_parquet(temporary, index=False))
+    table = geoparquet_table(layer.columns, layer.kinds, layer.lines, attrs={ATTRS_KEY: attrs})
+    return write_with(final, lambda temporary: write_geoparquet(temporary, table))
 
 
 def read_part_attrs(path: Path) -> dict | None:

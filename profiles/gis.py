@@ -26,15 +26,27 @@ Antimeridian: line geometries are cut where a track crosses +-180 degrees, the w
 (GeoJSON, section 3.1.9) asks, so that every longitude stays within [-180, 180]: such a track
 becomes a MultiLineString whose parts meet at the meridian (latitude interpolated linearly in
 longitude, exact to well under a metre over steps of a few km). When any feature of a layer is
-cut, the layer holds MultiLineStrings throughout.
+cut, the layer holds MultiLineStrings throughout (in the GeoPackage; a GeoParquet file keeps
+each line's own type).
 
 The GeoPackage is written through pyogrio to a temporary name and renamed into place
 (:meth:`profiles.outputs.OutputFolder.with_writer`). geopandas, shapely and pyogrio are
 imported here only, so that the numerical core never loads them.
+
+GeoParquet (the parts of ``profiles batch``): :func:`segment_lines` and :func:`window_lines`
+give the same lines as WKB, encoded from the vertex arrays without building shapely
+geometries (:func:`lines_wkb`), and :func:`geoparquet_table` puts them with typed columns into
+a pyarrow table that holds what ``geopandas.GeoDataFrame.to_parquet`` would write
+(GeoParquet 1.1.0 metadata, pandas dtypes, ``DataFrame.attrs``); :func:`write_geoparquet`
+writes it.
 """
 
 from __future__ import annotations
 
+import functools
+import json
+import warnings
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -88,50 +100,193 @@ def _shifted(part: np.ndarray, sheet: int) -> np.ndarray:
     return part[keep]
 
 
-def _lines(paths: list[np.ndarray]):
-    """Shapely geometries of paths: LineStrings, or MultiLineStrings where a path is cut."""
+def _ragged(paths: list[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """Paths laid end to end: ``(vertices, offsets)``, path i is ``vertices[offsets[i] : offsets[i + 1]]``."""
     lengths = np.array([len(path) for path in paths], dtype=np.intp)
     offsets = np.zeros(lengths.size + 1, dtype=np.intp)
     np.cumsum(lengths, out=offsets[1:])
     vertices = np.concatenate(paths).reshape(-1, 2) if paths else np.zeros((0, 2))
-    return _lines_from(np.asarray(vertices, dtype=float), offsets)
+    return np.asarray(vertices, dtype=float), offsets
+
+
+def _lines(paths: list[np.ndarray]):
+    """Shapely geometries of paths: LineStrings, or MultiLineStrings where a path is cut."""
+    return _lines_from(*_ragged(paths))
+
+
+def _on_one_sheet(vertices: np.ndarray, offsets: np.ndarray):
+    """What :func:`_lines_from` and :func:`lines_wkb` build at once, and what they cut one by one.
+
+    A path that stays on one sheet (its longitudes within one turn [-180 + 360 s, 180 + 360 s))
+    is what :func:`split_at_antimeridian` makes of it: moved by s turns, repeated vertices
+    dropped. Returns ``(moved, fast, slow, kept)``: the vertices moved by their sheet's turns,
+    the vertices kept of the paths built at once (``fast``), the paths that change sheet or
+    would keep fewer than two vertices (``slow``), cut one by one, and the number of vertices
+    kept of every path.
+    """
+    count = offsets.size - 1
+    lon = vertices[:, 0]
+    first = np.zeros(lon.size, dtype=bool)  # the first vertex of a path
+    first[offsets[:-1][np.diff(offsets) > 0]] = True
+    if lon.size and lon.min() >= -180.0 and lon.max() < 180.0:
+        moved, crossing = vertices, None  # all on sheet 0: moving by no turn changes no bit
+    else:
+        sheet = np.floor((lon + 180.0) / 360.0).astype(np.int64)
+        moved = np.column_stack([lon - 360.0 * sheet, vertices[:, 1] - 0.0])
+        crossing = (np.diff(sheet) != 0) & ~first[1:]
+    keep = first.copy()
+    step = np.diff(moved, axis=0) != 0
+    keep[1:] |= step[:, 0] | step[:, 1]  # a path's first vertex, and every vertex that moves
+    running = np.zeros(lon.size + 1, dtype=np.intp)
+    np.cumsum(keep, out=running[1:])
+    kept = running[offsets[1:]] - running[offsets[:-1]]
+    slow = kept < 2
+    if crossing is not None and crossing.any():
+        path = np.repeat(np.arange(count), np.diff(offsets))
+        slow[path[1:][crossing]] = True
+    fast = keep if not slow.any() else keep & ~np.repeat(slow, np.diff(offsets))
+    return moved, fast, slow, kept
+
+
+def _cut(path: np.ndarray):
+    """The shapely line of one path: a LineString, or a MultiLineString cut at the antimeridian."""
+    import shapely
+
+    parts = split_at_antimeridian(path)
+    if len(parts) == 1:
+        return shapely.linestrings(parts[0])
+    return shapely.multilinestrings([shapely.linestrings(p) for p in parts])
 
 
 def _lines_from(vertices: np.ndarray, offsets: np.ndarray):
     """:func:`_lines` of the paths ``vertices[offsets[i] : offsets[i + 1]]``, built at once.
 
-    A path that stays on one sheet (its longitudes within one turn [-180 + 360 s, 180 + 360 s))
-    is what :func:`split_at_antimeridian` makes of it: moved by s turns, repeated vertices
-    dropped. All those paths go into one ``shapely.linestrings(..., indices=...)`` call;
-    only paths that change sheet (or would keep fewer than two vertices) are cut one by one.
+    The paths that stay on one sheet go into one ``shapely.linestrings(..., indices=...)``
+    call; only paths that change sheet (or would keep fewer than two vertices) are cut one by
+    one (:func:`_on_one_sheet`).
     """
     import shapely
 
-    count = offsets.size - 1
-    path = np.repeat(np.arange(count), np.diff(offsets))
-    lon, lat = vertices[:, 0], vertices[:, 1]
-    sheet = np.floor((lon + 180.0) / 360.0).astype(np.int64)
-    same = path[1:] == path[:-1]  # consecutive vertices of one path
-    moved = np.column_stack([lon - 360.0 * sheet, lat - 0.0])
-    keep = np.ones(path.size, dtype=bool)
-    keep[1:] = np.any(np.diff(moved, axis=0) != 0, axis=1) | ~same
-    slow = np.bincount(path[keep], minlength=count) < 2
-    slow[path[1:][(np.diff(sheet) != 0) & same]] = True
-    geometries = np.empty(count, dtype=object)
+    moved, fast, slow, _ = _on_one_sheet(vertices, offsets)
+    geometries = np.empty(offsets.size - 1, dtype=object)
     for i in np.flatnonzero(slow).tolist():
-        parts = split_at_antimeridian(vertices[offsets[i] : offsets[i + 1]])
-        if len(parts) == 1:
-            geometries[i] = shapely.linestrings(parts[0])
-        else:
-            geometries[i] = shapely.multilinestrings([shapely.linestrings(p) for p in parts])
-    fast = keep & ~slow[path]
+        geometries[i] = _cut(vertices[offsets[i] : offsets[i + 1]])
     if fast.any():
+        path = np.repeat(np.arange(offsets.size - 1), np.diff(offsets))
         shapely.linestrings(moved[fast], indices=path[fast], out=geometries)
     return list(geometries)
 
 
+#: Names of the geometry types by shapely's type id (a LinearRing is written as a LineString),
+#: as GeoParquet's ``geometry_types`` lists them.
+_TYPE_NAMES = ("Point", "LineString", "LineString", "Polygon", "MultiPoint", "MultiLineString",
+               "MultiPolygon", "GeometryCollection")
+#: Header of a 2D LineString in WKB (ISO 13249-3 / OGC Simple Features 06-103r4, 8.2): byte
+#: order 1 (little endian), type 2 (LineString), number of points; then x, y as doubles.
+_WKB_HEADER = np.dtype([("order", "u1"), ("type", "<u4"), ("points", "<u4")])
+
+
+@dataclass(frozen=True)
+class LineColumn:
+    """Lines as the WKB geometry column of a GeoParquet file.
+
+    Attributes
+    ----------
+    wkb : pyarrow.BinaryArray
+        One WKB geometry per path, as ``shapely.to_wkb`` writes the lines of :func:`_lines`
+        (2D, little endian).
+    geometry_types : tuple of str
+        The types present (``LineString``, ``MultiLineString``), sorted.
+    bbox : tuple of float or None
+        (min lon, min lat, max lon, max lat) of every vertex; None without a vertex.
+    """
+
+    wkb: object
+    geometry_types: tuple[str, ...]
+    bbox: tuple[float, float, float, float] | None
+
+    def __len__(self) -> int:
+        return len(self.wkb)
+
+
+def lines_wkb(vertices: np.ndarray, offsets: np.ndarray) -> LineColumn:
+    """The lines of :func:`_lines_from` as WKB, encoded at once without building them.
+
+    The paths that stay on one sheet are written as LineStrings straight from the vertex
+    array: a 9-byte header per path joined to its run of coordinates; the paths cut at the
+    antimeridian (few) are built with shapely and encoded with ``shapely.to_wkb``.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    vertices = np.asarray(vertices, dtype=float)
+    moved, fast, slow, kept = _on_one_sheet(vertices, offsets)
+    rows = np.flatnonzero(~slow)
+    coords = np.ascontiguousarray(moved if fast.all() else moved[fast], dtype="<f8")
+    points = kept[rows]
+    header = np.empty(rows.size, dtype=_WKB_HEADER)
+    header["order"], header["type"], header["points"] = 1, 2, points
+    head = _binary(header.view(np.uint8), np.arange(rows.size + 1, dtype=np.int64) * _WKB_HEADER.itemsize)
+    ends = np.zeros(rows.size + 1, dtype=np.int64)
+    np.cumsum(points * 16, out=ends[1:])
+    body = _binary(coords.reshape(-1).view(np.uint8), ends)
+    wkb = pc.binary_join_element_wise(head, body, pa.scalar(b"", pa.large_binary()))
+    types = {"LineString"} if rows.size else set()
+    extents = [_extent(coords)] if coords.size else []
+    cut = np.flatnonzero(slow)
+    if cut.size:
+        import shapely
+
+        lines = np.array([_cut(vertices[offsets[i] : offsets[i + 1]]) for i in cut.tolist()], dtype=object)
+        types |= {_TYPE_NAMES[k] for k in shapely.get_type_id(lines).tolist()}
+        extents.extend(shapely.bounds(lines))
+        wkb = pa.concat_arrays([wkb, pa.array(shapely.to_wkb(lines, flavor="iso"), pa.large_binary())])
+        wkb = wkb.take(np.argsort(np.concatenate([rows, cut]), kind="stable"))
+    bbox = None
+    if extents:  # as geopandas' total_bounds: NaN (an empty line's bounds) left out
+        extents = np.array(extents)
+        low, high = np.fmin.reduce(extents[:, :2], axis=0), np.fmax.reduce(extents[:, 2:], axis=0)
+        if np.isfinite(low).all() and np.isfinite(high).all():
+            bbox = (float(low[0]), float(low[1]), float(high[0]), float(high[1]))
+    return LineColumn(wkb.cast(pa.binary()), tuple(sorted(types)), bbox)
+
+
+def _extent(coords: np.ndarray) -> list[float]:
+    """[min lon, min lat, max lon, max lat] of vertices (k, 2), NaN left out (one column at a
+    time: a reduction along the long axis of a (k, 2) array is many times slower)."""
+    columns = (coords[:, 0], coords[:, 1])
+    extent = [*(c.min() for c in columns), *(c.max() for c in columns)]
+    if np.isnan(extent).any():
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)  # a column of NaN only
+            extent = [*(np.nanmin(c) for c in columns), *(np.nanmax(c) for c in columns)]
+    return [float(v) for v in extent]
+
+
+def paths_wkb(paths: list[np.ndarray]) -> LineColumn:
+    """:func:`lines_wkb` of paths given one by one (each of shape (k, 2), lon and lat)."""
+    return lines_wkb(*_ragged(paths))
+
+
+def _binary(data: np.ndarray, offsets: np.ndarray):
+    """A pyarrow large binary array over ``data`` (bytes) cut at ``offsets``, without copying."""
+    import pyarrow as pa
+
+    return pa.LargeBinaryArray.from_buffers(
+        pa.large_binary(), offsets.size - 1, [None, pa.py_buffer(offsets), pa.py_buffer(data)]
+    )
+
+
 def _unwrapped(lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
-    return np.column_stack([np.unwrap(np.asarray(lon, dtype=float), period=360.0), lat])
+    """(lon, lat) with longitudes made continuous by ``numpy.unwrap(period=360)``, which leaves
+    a path without a step of 180 degrees or more as ``p[0], p[1:] + 0.0``: so done there."""
+    lon = np.asarray(lon, dtype=float)
+    if lon.size > 1 and (np.abs(np.diff(lon)) < 180.0).all():
+        continuous = lon + 0.0
+        continuous[0] = lon[0]
+    else:
+        continuous = np.unwrap(lon, period=360.0)
+    return np.column_stack([continuous, lat])
 
 
 def _frame(table: pd.DataFrame, geometry, *, geometry_type: str | None = None):
@@ -167,20 +322,42 @@ def station_layer(survey: Survey):
     return _frame(stations, points)
 
 
+def _segment_paths(segments: Segments) -> list[np.ndarray]:
+    return [_unwrapped(s.lon, s.lat) for s in segments]
+
+
 def segment_layer(segments: Segments, audit: SpacingAudit):
     """One line per segment through its stations, with the spacing-audit attributes."""
-    paths = [_unwrapped(s.lon, s.lat) for s in segments]
-    return _frame(audit.segments.reset_index(drop=True), _lines(paths))
+    return _frame(audit.segments.reset_index(drop=True), _lines(_segment_paths(segments)))
+
+
+def segment_lines(segments: Segments) -> LineColumn:
+    """The lines of :func:`segment_layer` as a WKB column (:func:`lines_wkb`)."""
+    return paths_wkb(_segment_paths(segments))
+
+
+def _window_paths(windows: WindowTable) -> tuple[np.ndarray, np.ndarray]:
+    return track_path_vertices(windows.tracks, windows.track, windows.start, windows.end)
+
+
+def window_attributes(windows: WindowTable, budget: AliasBudget | None = None) -> pd.DataFrame:
+    """The attributes of :func:`window_layer`: :func:`profiles.infill.window_frame` with
+    ``reasons`` as comma-separated text (empty where there is none)."""
+    frame = window_frame(windows, budget)
+    frame["reasons"] = [",".join(r) for r in frame["reasons"]]
+    return frame
 
 
 def window_layer(windows: WindowTable, budget: AliasBudget | None = None):
     """One line per window along its extent, with every window attribute, and the budget's
     columns when ``budget`` was drawn up for a target wavelength
     (:func:`profiles.infill.window_frame`)."""
-    frame = window_frame(windows, budget)
-    frame["reasons"] = [",".join(r) for r in frame["reasons"]]
-    vertices, offsets = track_path_vertices(windows.tracks, windows.track, windows.start, windows.end)
-    return _frame(frame, _lines_from(vertices, offsets))
+    return _frame(window_attributes(windows, budget), _lines_from(*_window_paths(windows)))
+
+
+def window_lines(windows: WindowTable) -> LineColumn:
+    """The lines of :func:`window_layer` as a WKB column (:func:`lines_wkb`)."""
+    return lines_wkb(*_window_paths(windows))
 
 
 def warning_layer(windows: WindowTable):
@@ -249,3 +426,131 @@ def write_geopackage(
     if infill is not None:
         layers["infill"] = infill_layer(infill)
     return write_layers(path, layers)
+
+
+# --- GeoParquet -----------------------------------------------------------------------------------
+
+#: Version of the GeoParquet specification whose metadata the parts carry
+#: (https://geoparquet.org/releases/v1.1.0/).
+GEOPARQUET_VERSION = "1.1.0"
+#: Name of the geometry column.
+GEOMETRY = "geometry"
+
+
+def geoparquet_table(columns: dict, kinds: dict[str, str], lines: LineColumn, *, attrs: dict | None = None):
+    """A pyarrow table of typed columns and a WKB line column, with GeoParquet metadata.
+
+    It holds what ``geopandas.GeoDataFrame.to_parquet`` writes for a frame of these columns cast
+    to ``kinds`` with the lines as its geometry in :data:`CRS` (``attrs`` as its
+    ``DataFrame.attrs``), so that ``geopandas.read_parquet`` gives that frame back, dtypes and
+    ``attrs`` included, without the frame or the shapely geometries ever being built:
+
+    - the columns as ``pyarrow.Table.from_pandas`` converts them (NaN and missing values
+      null), with its ``pandas`` schema metadata, which restores the dtypes on reading;
+    - ``geometry``: WKB, with the field metadata of the GeoArrow ``geoarrow.wkb`` extension type
+      (the CRS as PROJJSON);
+    - ``geo``: the GeoParquet metadata (``version``, ``primary_column``, and for the column
+      ``encoding``, ``crs``, ``geometry_types`` and ``bbox``, the last left out when there is no
+      line);
+    - ``PANDAS_ATTRS``: ``attrs`` as JSON, where geopandas keeps ``DataFrame.attrs``.
+
+    Parameters
+    ----------
+    columns : dict
+        Column name -> values (a numpy array, a pandas Series or a list), in order.
+    kinds : dict
+        Column name -> pandas dtype name: ``float64``, ``int64``, ``Int64``, ``boolean`` or
+        ``string``. The schema depends on the kinds only, so tables with and without rows
+        have the same one.
+    lines : LineColumn
+        The geometry column, one line per row.
+    attrs : dict, optional
+        Metadata stored as ``DataFrame.attrs``.
+    """
+    import pyarrow as pa
+
+    if list(columns) != list(kinds):
+        raise ValueError(f"columns {list(columns)} and kinds {list(kinds)} differ")
+    schema = _schema(tuple(kinds.items()))
+    arrays = [_arrow_array(values, kinds[name], schema.field(name).type) for name, values in columns.items()]
+    table = pa.Table.from_arrays([*arrays, lines.wkb], schema=schema)
+    metadata = {**schema.metadata, b"geo": json.dumps(_geo_metadata(lines)).encode("utf-8")}
+    if attrs:
+        metadata[b"PANDAS_ATTRS"] = json.dumps(attrs).encode("utf-8")
+    return table.replace_schema_metadata(metadata)
+
+
+def write_geoparquet(path: str | Path, table) -> Path:
+    """Write a table of :func:`geoparquet_table` to ``path`` (directly: callers that need an
+    atomic write pass a temporary path, see :func:`profiles.outputs.write_with`).
+
+    Snappy compression; dictionary encoding for the text columns only (numbers and WKB rarely
+    repeat, and trying a dictionary for them costs time for nothing).
+    """
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    text = [field.name for field in table.schema if pa.types.is_large_string(field.type)]
+    pq.write_table(table, path, compression="snappy", use_dictionary=text)
+    return Path(path)
+
+
+def _arrow_array(values, kind: str, arrow_type):
+    """Values cast to a pandas dtype and converted as ``pyarrow.Table.from_pandas`` would."""
+    import pyarrow as pa
+
+    if isinstance(values, pd.Series) and values.dtype == kind and kind in ("float64", "int64"):
+        values = values.to_numpy()
+    if not (isinstance(values, np.ndarray) and values.dtype == kind):  # cast as DataFrame.astype
+        values = pd.Series(values).astype(kind)
+    return pa.array(values, type=arrow_type, from_pandas=True)
+
+
+@functools.lru_cache(maxsize=16)
+def _schema(kinds: tuple[tuple[str, str], ...]):
+    """The Arrow schema (with its ``pandas`` metadata) of a frame of these dtypes with a WKB
+    geometry column last, as geopandas converts it: the frame with the geometry column's
+    values left empty, through ``pyarrow.Schema.from_pandas``, then the WKB field."""
+    import pyarrow as pa
+
+    frame = pd.DataFrame({name: pd.Series([], dtype=kind) for name, kind in kinds})
+    frame[GEOMETRY] = None
+    schema = pa.Schema.from_pandas(frame, preserve_index=False)
+    extension = {"ARROW:extension:name": "geoarrow.wkb",
+                 "ARROW:extension:metadata": json.dumps({"crs": _projjson()})}
+    return schema.set(schema.get_field_index(GEOMETRY), pa.field(GEOMETRY, pa.binary(), metadata=extension))
+
+
+def _geo_metadata(lines: LineColumn) -> dict:
+    """The ``geo`` metadata of the GeoParquet specification (1.1.0, "File metadata")."""
+    column = {"encoding": "WKB", "crs": _projjson(member_ids=False),
+              "geometry_types": list(lines.geometry_types)}
+    if lines.bbox is not None:
+        column["bbox"] = list(lines.bbox)
+    return {"primary_column": GEOMETRY, "columns": {GEOMETRY: column}, "version": GEOPARQUET_VERSION}
+
+
+@functools.lru_cache(maxsize=1)
+def _projjson_text() -> str:
+    from pyproj import CRS as ProjCRS
+
+    return ProjCRS.from_user_input(CRS).to_json()
+
+
+def _projjson(*, member_ids: bool = True) -> dict:
+    """:data:`CRS` as PROJJSON (a new dict each call). Without ``member_ids``, the members of
+    the datum ensemble lose their ids, which older PROJ versions do not recognise (GeoParquet
+    discussion 110; geopandas writes its ``geo`` metadata so)."""
+    document = json.loads(_projjson_text())
+    if not member_ids:
+        _drop_member_ids(document)
+    return document
+
+
+def _drop_member_ids(document: dict) -> None:
+    for key, value in document.items():
+        if isinstance(value, dict):
+            _drop_member_ids(value)
+        elif key == "members" and isinstance(value, list):
+            for member in value:
+                member.pop("id", None)

@@ -4,8 +4,10 @@ and library calls give, reports bad files, resumes, and never leaves a half-writ
 References: the single-file commands ``profiles spacing`` and ``profiles spectrum`` and the
 library's window table (the batch must reproduce them bit for bit); pyproj.Geod (the
 geodesic length of every output line, and the tracks, built with Geod.fwd in conftest.walk);
-geopandas (the output opens as GeoParquet in EPSG:4326). The cluster is one
-distributed.LocalCluster of two single-threaded worker processes for the whole module.
+geopandas (the output opens as GeoParquet in EPSG:4326, and each part reads back, with geopandas
+and with pyarrow, exactly as ``geopandas.GeoDataFrame.to_parquet`` writes the same layer as a
+GeoDataFrame). The cluster is one distributed.LocalCluster of two single-threaded worker
+processes for the whole module.
 """
 
 from __future__ import annotations
@@ -17,9 +19,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 from conftest import GEOD, walk, write_csv
+from test_gis import assert_same_for_readers
 
+import profiles.batch_task
 from profiles.batch import file_id, find_survey_files, run_batch
-from profiles.batch_task import BatchOptions, analyse_file, part_paths
+from profiles.batch_task import BatchOptions, analyse_file, part_paths, read_part_attrs
 from profiles.cli import main
 from profiles.outputs import temporary_name
 
@@ -29,11 +33,11 @@ ARGS = ("--field", FIELD, "--window", "8km", "--shortest-wavelength", "2km")
 OPTIONS = BatchOptions(field=FIELD, window=8000.0, shortest_wavelength=2000.0)
 
 
-def task_for(item, out) -> dict:
-    """The task run_batch submits for one found file (``item``) with OPTIONS."""
+def task_for(item, out, options: BatchOptions = OPTIONS) -> dict:
+    """The task run_batch submits for one found file (``item``) with ``options``."""
     return {"path": str(item.path), "file": item.relative, "id": item.id, "size": item.size,
-            "mtime_ns": item.mtime_ns, "out": str(out), "options": OPTIONS.to_json(),
-            "options_key": OPTIONS.key()}
+            "mtime_ns": item.mtime_ns, "out": str(out), "options": options.to_json(),
+            "options_key": options.key()}
 
 
 @pytest.fixture(scope="module")
@@ -265,7 +269,7 @@ def test_changed_file_and_missing_windows_part_are_redone(archive, scheduler, tm
 
 
 def test_failure_inside_the_writer_leaves_no_part(archive, tmp_path, monkeypatch):
-    import geopandas
+    import pyarrow.parquet as pq
 
     _, good = archive
     out = tmp_path / "out"
@@ -273,15 +277,15 @@ def test_failure_inside_the_writer_leaves_no_part(archive, tmp_path, monkeypatch
     task = task_for(item, out)
     written = []
 
-    def fail_on_second_part(self, path, **kwargs):  # the disk fills up half-way through a part
+    def fail_on_second_part(table, path, **kwargs):  # the disk fills up half-way through a part
         written.append(Path(path))
         Path(path).write_bytes(b"PAR1 half a file")
         if len(written) == 2:
             raise OSError(28, "No space left on device")
-        return original(self, path, **kwargs)
+        return original(table, path, **kwargs)
 
-    original = geopandas.GeoDataFrame.to_parquet
-    monkeypatch.setattr(geopandas.GeoDataFrame, "to_parquet", fail_on_second_part)
+    original = pq.write_table
+    monkeypatch.setattr(pq, "write_table", fail_on_second_part)
     record = analyse_file(task)
     assert record["status"] == "failed"
     assert record["reason"] == "OSError: [Errno 28] No space left on device"
@@ -411,7 +415,94 @@ def test_lines_asked_for_and_every_part_has_one_schema(archive, scheduler, tmp_p
         assert len(schemas) == 3 and all(s.equals(schemas[0]) for s in schemas), folder
 
 
-def test_a_track_across_the_antimeridian_is_cut_there(tmp_path):
+def test_empty_parts_read_back_as_geopandas_writes_them(archive, tmp_path, monkeypatch):
+    # A file without the line asked for: both parts empty, and still what geopandas writes for
+    # an empty layer of the same columns (schema, pandas dtypes and geo metadata), the same
+    # schema as a part with rows.
+    import pyarrow.parquet as pq
+
+    root, _ = archive
+    out = tmp_path / "out"
+    layers = _recording(monkeypatch)
+    options = BatchOptions(field=FIELD, window=8000.0, shortest_wavelength=2000.0, lines=("S1-1",))
+    (empty,), (full,) = (find_survey_files([root / name]).files for name in ("south.csv", "north.csv"))
+    record = analyse_file(task_for(empty, out, options))
+    assert record["status"] == "done" and record["segments"] == record["windows"] == 0
+    assert analyse_file(task_for(full, out, options))["segments"] > 0  # north.csv holds S1-1
+    recorded = (layers["segments"][0], layers["windows"][0])  # the empty file's, built first
+    for path, (layer, geometry) in zip(part_paths(out, empty.id), recorded, strict=True):
+        assert pq.read_metadata(path).num_rows == 0 and len(geometry) == 0
+        _assert_same_for_readers(path, _geopandas_part(layer, geometry, read_part_attrs(path),
+                                                       tmp_path / f"ref-{path.parent.name}"))
+    for path, other in zip(part_paths(out, empty.id), part_paths(out, full.id), strict=True):
+        assert pq.read_schema(path).remove_metadata().equals(pq.read_schema(other).remove_metadata())
+
+
+# --- the parts against geopandas' own writer ------------------------------------------------------
+
+
+def _recording(monkeypatch) -> dict:
+    """Record every layer the task builds, with its lines as profiles.gis's GeoPackage layers
+    build them in shapely (segment_layer, window_layer), apart from the WKB written."""
+    from profiles import gis
+
+    layers = {"segments": [], "windows": []}
+    build_segments, build_windows = profiles.batch_task._segment_part, profiles.batch_task._window_part
+
+    def segment_part(file, segments, audit, *args):
+        layers["segments"].append((build_segments(file, segments, audit, *args),
+                                   gis.segment_layer(segments, audit).geometry.to_numpy()))
+        return layers["segments"][-1][0]
+
+    def window_part(file, table):
+        empty = table is None or len(table) == 0
+        geometry = np.array([], dtype=object) if empty else gis.window_layer(table).geometry.to_numpy()
+        layers["windows"].append((build_windows(file, table), geometry))
+        return layers["windows"][-1][0]
+
+    monkeypatch.setattr(profiles.batch_task, "_segment_part", segment_part)
+    monkeypatch.setattr(profiles.batch_task, "_window_part", window_part)
+    return layers
+
+
+def _geopandas_part(layer, geometry, attrs: dict, path: Path) -> Path:
+    """The outside reference: the layer as a GeoDataFrame in EPSG:4326 (columns cast with
+    pandas' DataFrame.astype), its attrs set, written by geopandas' GeoDataFrame.to_parquet."""
+    import geopandas
+    import pandas as pd
+
+    frame = pd.DataFrame(dict(layer.columns)).astype(layer.kinds)
+    lines = geopandas.GeoSeries(geometry, index=frame.index, crs="EPSG:4326")
+    frame = geopandas.GeoDataFrame(frame, geometry=lines)
+    frame.attrs["profiles"] = attrs
+    frame.to_parquet(path, index=False)
+    return path
+
+
+def _assert_same_for_readers(ours: Path, reference: Path) -> None:
+    """test_gis.assert_same_for_readers, and the attrs are those read_part_attrs reads."""
+    import geopandas
+
+    assert_same_for_readers(ours, reference)
+    assert geopandas.read_parquet(ours).attrs["profiles"] == read_part_attrs(ours)
+
+
+def test_parts_read_back_as_geopandas_writes_them(archive, tmp_path, monkeypatch):
+    # Every part of the archive's files (one with a gap), against the same layers written by
+    # geopandas' GeoDataFrame.to_parquet (the outside reference).
+    _, good = archive
+    layers = _recording(monkeypatch)
+    for path in good:
+        (item,) = find_survey_files([path]).files
+        assert analyse_file(task_for(item, tmp_path / "out"))["status"] == "done"
+        segments, windows = part_paths(tmp_path / "out", item.id)
+        for part, (layer, geometry) in ((segments, layers["segments"][-1]), (windows, layers["windows"][-1])):
+            assert len(geometry) > 0
+            reference = _geopandas_part(layer, geometry, read_part_attrs(part), tmp_path / f"ref-{part.name}")
+            _assert_same_for_readers(part, reference)
+
+
+def test_a_track_across_the_antimeridian_is_cut_there(tmp_path, monkeypatch):
     import geopandas
     import shapely
 
@@ -422,11 +513,19 @@ def test_a_track_across_the_antimeridian_is_cut_there(tmp_path):
     )
     (item,) = find_survey_files([path]).files
     out = tmp_path / "out"
+    layers = _recording(monkeypatch)
     record = analyse_file(task_for(item, out))
     assert record["status"] == "done", record["reason"]
-    (line,) = geopandas.read_parquet(part_paths(out, item.id)[0]).geometry
+    segments, windows = part_paths(out, item.id)
+    (line,) = geopandas.read_parquet(segments).geometry
     assert line.geom_type == "MultiLineString"
     coords = shapely.get_coordinates(line)
     assert coords[:, 0].min() >= -180 and coords[:, 0].max() <= 180
     # pyproj.Geod: the parts add up to the track's geodesic length
     assert GEOD.geometry_length(line) == pytest.approx(GEOD.line_length(lon, lat), rel=1e-9)
+    # The windows: those across 180 degrees cut, the others LineStrings; both parts as
+    # geopandas' GeoDataFrame.to_parquet writes the same layers.
+    assert set(geopandas.read_parquet(windows).geom_type) == {"LineString", "MultiLineString"}
+    for part, (layer, geometry) in ((segments, layers["segments"][0]), (windows, layers["windows"][0])):
+        _assert_same_for_readers(part, _geopandas_part(layer, geometry, read_part_attrs(part),
+                                                       tmp_path / f"ref-{part.parent.name}"))

@@ -3,6 +3,10 @@
 Outside references named beside the checks:
 - geopandas / pyogrio (GDAL's GeoPackage driver) to read the file back: the OGC GeoPackage
   standard is what any GIS opens;
+- for GeoParquet: shapely.to_wkb (GEOS's WKB writer, ISO flavour, as geopandas writes it) for
+  the WKB of the lines, geopandas' GeoSeries.total_bounds for the bbox, and the file that
+  geopandas.GeoDataFrame.to_parquet writes for the same frame, read back with geopandas and
+  with pyarrow (GeoParquet 1.1.0 specification, https://geoparquet.org/releases/v1.1.0/);
 - pyproj.CRS for EPSG:4326 and pyproj.Geod.geometry_length (Karney 2013) for line lengths;
 - RFC 7946 section 3.1.9 (antimeridian cutting) for lines that cross +-180 degrees;
 - the sampling theorem (Shannon 1949): at a spacing of half the target wavelength or more the
@@ -23,7 +27,17 @@ from conftest import GEOD, walk
 from pyproj import CRS
 
 from profiles.geometry import build_segments
-from profiles.gis import LAYERS, _lines, split_at_antimeridian, window_layer, write_geopackage
+from profiles.gis import (
+    LAYERS,
+    _lines,
+    geoparquet_table,
+    paths_wkb,
+    split_at_antimeridian,
+    window_layer,
+    window_lines,
+    write_geopackage,
+    write_geoparquet,
+)
 from profiles.infill import INFILL_COLUMNS
 from profiles.outputs import OutputFolder
 from profiles.resample import resample
@@ -230,25 +244,93 @@ def one_line_at_a_time(paths):
     return lines
 
 
+#: Paths on one sheet (also moved by whole turns, with repeated vertices and a negative zero),
+#: crossing eastwards and westwards, touching the meridian and crossing it more than once.
+PATHS = [
+    np.array([[10.0, 0.0], [11.0, 1.0]]),
+    np.array([[-0.0, -0.0], [1.0, 2.0], [1.0, 2.0], [3.0, 4.0]]),
+    np.array([[190.0, 0.0], [191.0, 1.0], [191.0, 1.0]]),
+    np.array([[540.0, 0.0], [541.0, 1.0]]),
+    np.array([[179.9, 0.0], [180.0, 1.0], [180.1, 2.0]]),
+    np.array([[-179.9, 0.0], [-180.1, 1.0]]),
+    np.array([[179.0, 0.0], [181.0, 1.0], [179.0, 2.0], [-200.0, 3.0]]),
+    np.array([[170.0, 5.0], [180.0, 5.0]]),
+]
+
+
 def test_lines_built_at_once_equal_one_line_at_a_time():
     # Reference: the per-path construction above (RFC 7946 section 3.1.9 cutting); shapely's
-    # equals_exact with tolerance 0 and the same WKB. Paths on one sheet (also moved by whole
-    # turns, with repeated vertices and a negative zero), crossing eastwards and westwards,
-    # touching the meridian and crossing it more than once.
-    paths = [
-        np.array([[10.0, 0.0], [11.0, 1.0]]),
-        np.array([[-0.0, -0.0], [1.0, 2.0], [1.0, 2.0], [3.0, 4.0]]),
-        np.array([[190.0, 0.0], [191.0, 1.0], [191.0, 1.0]]),
-        np.array([[540.0, 0.0], [541.0, 1.0]]),
-        np.array([[179.9, 0.0], [180.0, 1.0], [180.1, 2.0]]),
-        np.array([[-179.9, 0.0], [-180.1, 1.0]]),
-        np.array([[179.0, 0.0], [181.0, 1.0], [179.0, 2.0], [-200.0, 3.0]]),
-        np.array([[170.0, 5.0], [180.0, 5.0]]),
-    ]
-    for line, reference in zip(_lines(paths), one_line_at_a_time(paths), strict=True):
+    # equals_exact with tolerance 0 and the same WKB.
+    for line, reference in zip(_lines(PATHS), one_line_at_a_time(PATHS), strict=True):
         assert line.geom_type == reference.geom_type
         assert line.equals_exact(reference, 0.0)
         assert shapely.to_wkb(line) == shapely.to_wkb(reference)
+
+
+@pytest.mark.parametrize("paths", [PATHS, PATHS[:4], PATHS[4:], []], ids=["all", "one sheet", "cut", "none"])
+def test_lines_as_wkb_equal_shapely_to_wkb(paths):
+    # Reference: shapely.to_wkb (GEOS's writer, ISO flavour, as geopandas writes GeoParquet) of
+    # the lines cut one at a time; geometry types as shapely names them; the bbox as geopandas'
+    # GeoSeries.total_bounds, absent without a line (GeoParquet 1.1.0, "bbox").
+    column = paths_wkb(paths)
+    reference = one_line_at_a_time(paths)
+    assert len(column) == len(paths)
+    assert column.wkb.to_pylist() == [shapely.to_wkb(line, flavor="iso") for line in reference]
+    assert column.geometry_types == tuple(sorted({line.geom_type for line in reference}))
+    if paths:
+        assert column.bbox == tuple(geopandas.GeoSeries(reference).total_bounds.tolist())
+    else:
+        assert column.bbox is None
+
+
+def assert_same_for_readers(ours, reference) -> None:
+    """geopandas and pyarrow read the same from two GeoParquet files: frames (dtypes, values,
+    WKB of the geometries), CRS, attrs; the Arrow schema with field and pandas metadata and the
+    values; the 'geo' metadata (GeoParquet 1.1.0) but for the 'creator' entry geopandas adds."""
+    import json
+
+    import pandas as pd
+    import pyarrow.parquet as pq
+
+    got, expected = geopandas.read_parquet(ours), geopandas.read_parquet(reference)
+    pd.testing.assert_frame_equal(got, expected, check_exact=True)
+    assert got.crs == expected.crs and got.crs.to_epsg() == 4326
+    assert got.attrs == expected.attrs
+    assert list(got.geometry.to_wkb()) == list(expected.geometry.to_wkb())
+    table, reference_table = pq.read_table(ours), pq.read_table(reference)
+    assert table.schema.equals(reference_table.schema, check_metadata=False)
+    for field in table.schema:
+        assert field.metadata == reference_table.schema.field(field.name).metadata, field.name
+    assert table.equals(reference_table)
+    metadata, reference_metadata = dict(table.schema.metadata), dict(reference_table.schema.metadata)
+    geo, reference_geo = json.loads(metadata.pop(b"geo")), json.loads(reference_metadata.pop(b"geo"))
+    assert reference_geo.pop("creator")["library"] == "geopandas"
+    assert geo == reference_geo
+    assert metadata == reference_metadata  # pandas (dtypes) and PANDAS_ATTRS
+
+
+@pytest.mark.parametrize("rows", [3, 0])
+def test_geoparquet_reads_back_as_geopandas_writes_it(tmp_path, rows):
+    # Reference: geopandas.GeoDataFrame.to_parquet of the same columns cast with pandas' astype,
+    # the lines built in shapely, the same attrs; with and without rows (GeoParquet 1.1.0:
+    # no bbox and no geometry type without a geometry). Every dtype, with missing values.
+    import pandas as pd
+
+    kinds = {"name": "string", "count": "int64", "maybe": "Int64", "flag": "boolean", "value": "float64"}
+    columns = {"name": ["a", None, ""], "count": np.array([1, 2, 3]), "maybe": [4, None, 6],
+               "flag": [True, None, False], "value": [1.5, np.nan, None]}
+    columns = {name: values[:rows] for name, values in columns.items()}
+    paths = [PATHS[0], PATHS[4], PATHS[3]][:rows]
+    attrs = {"profiles": {"file": "a.csv", "record": {"rows": [1, 2]}}}
+    ours = write_geoparquet(tmp_path / "ours.parquet", geoparquet_table(columns, kinds, paths_wkb(paths),
+                                                                        attrs=attrs))
+    frame = pd.DataFrame(columns).astype(kinds)
+    lines = geopandas.GeoSeries(np.array(_lines(paths), dtype=object), index=frame.index, crs="EPSG:4326")
+    reference = geopandas.GeoDataFrame(frame, geometry=lines)
+    reference.attrs.update(attrs)
+    reference.to_parquet(tmp_path / "reference.parquet", index=False)
+    assert_same_for_readers(ours, tmp_path / "reference.parquet")
+    assert geopandas.read_parquet(ours).attrs == attrs
 
 
 @pytest.mark.parametrize("start", [(12.0, 55.0), (179.7, -16.0)])
@@ -264,3 +346,5 @@ def test_window_layer_equals_one_line_at_a_time(start):
         assert line.geom_type == expected.geom_type and line.equals_exact(expected, 0.0)
     kinds = {g.geom_type for g in reference}
     assert kinds == ({"LineString", "MultiLineString"} if start[0] > 179 else {"LineString"})
+    # The WKB of the GeoParquet parts: shapely.to_wkb of the same reference lines.
+    assert window_lines(windows).wkb.to_pylist() == [shapely.to_wkb(g, flavor="iso") for g in reference]
