@@ -883,9 +883,9 @@ def _highest_peak(wavenumber, ratio, dof, spacing, limit) -> float | None:
     variance inflation; a periodogram bin has 2: Percival and Walden 1993, from memory); a
     bin is a peak beyond the upper PEAK_FALSE_ALARM / (number of bins) point.
     """
-    from scipy.stats import chi2
+    from scipy.special import chdtri  # the chi-square upper-tail inverse, chi2.isf
 
-    threshold = chi2.isf(PEAK_FALSE_ALARM / wavenumber.size, dof) / dof
+    threshold = chdtri(dof, PEAK_FALSE_ALARM / wavenumber.size) / dof
     peaks = (ratio > threshold) & (wavenumber <= PEAK_SEARCH_SHARE * 0.5 / spacing) & (wavenumber < limit)
     return float(wavenumber[peaks].max()) if peaks.any() else None
 

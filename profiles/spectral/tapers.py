@@ -12,10 +12,12 @@ tridiagonal eigensolver (bisection and inverse iteration over the whole matrix),
 N of several thousand costs 20-200 ms: far more than the tapered transforms, and a survey's
 segments rarely share a length.
 
-Here, above :data:`DIRECT_LENGTH` samples, the same eigenvectors are found from a good first
-guess instead:
+Up to :data:`DIRECT_LENGTH` samples the tapers are computed as scipy computes them (the same
+``scipy.linalg.eigh_tridiagonal`` call, signs and concentrations; scipy.signal itself is not
+imported, which saves half a second in every fresh process). Above it the same eigenvectors
+are found from a good first guess instead:
 
-1. the tapers of a reference length (scipy's, computed once per NW and K) are interpolated
+1. the tapers of a reference length (computed once per NW and K) are interpolated
    by a cubic spline at the sample positions (n + 1/2)/N of the new length: at fixed NW the
    DPSS converge, as N grows, to the samples of a continuous prolate spheroidal function,
    so this guess is already close (about 1e-5 relative at N = 1,000);
@@ -53,7 +55,7 @@ def dpss_tapers(count: int, nw: float, n_tapers: int) -> tuple[np.ndarray, np.nd
     """The first ``n_tapers`` DPSS tapers of ``count`` samples and their concentrations, cached.
 
     The same arrays as ``scipy.signal.windows.dpss(count, nw, n_tapers, sym=True, norm=2,
-    return_ratios=True)`` (unit energy), to about 1e-12: scipy's own up to
+    return_ratios=True)`` (unit energy), to about 1e-12: computed as scipy computes them up to
     :data:`DIRECT_LENGTH` samples, found from interpolated reference tapers by one step of
     Rayleigh-quotient inverse iteration above (module notes). Computed once per (N, NW, K);
     the arrays are read-only, so that no caller can alter what the next one gets.
@@ -78,14 +80,27 @@ def dpss_tapers(count: int, nw: float, n_tapers: int) -> tuple[np.ndarray, np.nd
 
 
 def _scipy_dpss(count: int, nw: float, n_tapers: int):
-    from scipy.signal.windows import dpss
+    """The tapers and concentrations as ``scipy.signal.windows.dpss`` computes them (the
+    tridiagonal eigensolver over the whole matrix, its signs and its concentrations), without
+    importing scipy.signal, whose import costs half a second in every fresh worker."""
+    from scipy.linalg import eigh_tridiagonal
 
-    return dpss(count, nw, n_tapers, sym=True, norm=2, return_ratios=True)
+    diagonal, off = _tridiagonal(count, nw)
+    _, vectors = eigh_tridiagonal(diagonal, off, select="i", select_range=(count - n_tapers, count - 1))
+    tapers = _signed(np.ascontiguousarray(vectors[:, ::-1].T), count)
+    return tapers, _concentrations(tapers, nw / count)
+
+
+def _tridiagonal(count: int, nw: float) -> tuple[np.ndarray, np.ndarray]:
+    """Diagonal and off-diagonal of the matrix whose eigenvectors are the DPSS (module notes)."""
+    index = np.arange(count, dtype=np.float64)
+    diagonal = ((count - 1 - 2.0 * index) / 2.0) ** 2 * np.cos(2.0 * np.pi * nw / count)
+    return diagonal, index[1:] * (count - index[1:]) / 2.0
 
 
 @functools.lru_cache(maxsize=8)
 def _reference(nw: float, n_tapers: int):
-    """Cubic spline through scipy's tapers of :data:`REFERENCE_LENGTH` samples, on (0, 1)."""
+    """Cubic spline through the tapers of :data:`REFERENCE_LENGTH` samples, on (0, 1)."""
     from scipy.interpolate import CubicSpline
 
     tapers, _ = _scipy_dpss(REFERENCE_LENGTH, nw, n_tapers)
@@ -99,9 +114,7 @@ def _refined_tapers(count: int, nw: float, n_tapers: int) -> np.ndarray:
     from scipy.linalg import lapack
 
     guess = _reference(nw, n_tapers)((np.arange(count) + 0.5) / count).T
-    index = np.arange(count, dtype=np.float64)
-    diagonal = ((count - 1 - 2.0 * index) / 2.0) ** 2 * np.cos(2.0 * np.pi * nw / count)
-    off = index[1:] * (count - index[1:]) / 2.0
+    diagonal, off = _tridiagonal(count, nw)
     tapers = np.empty((n_tapers, count))
     for k, start in enumerate(guess):
         product = diagonal * start
