@@ -57,9 +57,9 @@ class RawTable:
         Cells as text (text files) or as read (GIS layers, with ``__lon__``/``__lat__``).
     rows : ndarray of int
         File line (text) or feature number (GIS) of each row.
-    reasons : ndarray of str
+    reasons : ndarray of str, or None
         ``""`` or a reason decided while reading ("blank line", "repeated header", "wrong
-        number of fields").
+        number of fields"); None when no row has one.
     notes : list of str
         Warnings from reading.
     duplicates : dict of str to list of int
@@ -77,7 +77,7 @@ class RawTable:
 
     table: pd.DataFrame
     rows: np.ndarray
-    reasons: np.ndarray
+    reasons: np.ndarray | None
     notes: list[str] = field(default_factory=list)
     duplicates: dict[str, list[int]] = field(default_factory=dict)
     geometry: bool = False
@@ -117,18 +117,20 @@ def table_to_survey(raw: RawTable, *, source: str, columns: ColumnNames, fields,
     needed = [lon_name, lat_name, line_name, time_name, *(chosen if required else ())]
     _check_duplicates(raw.duplicates, needed, source, notes)
 
-    frame = pd.DataFrame(index=table.index)
-    frame["line"] = (
-        table[line_name].astype(str)  # stripped by assemble_stations
-        if line_name is not None
-        else pd.Series(stem, index=table.index)
-    )
-    frame["lon"] = table[lon_name]
-    frame["lat"] = table[lat_name]
+    columns_of_frame = {
+        "line": (
+            table[line_name].astype(str)  # stripped by assemble_stations
+            if line_name is not None
+            else pd.Series(stem, index=table.index)
+        ),
+        "lon": table[lon_name],
+        "lat": table[lat_name],
+    }
     if time_name is not None:
-        frame["time"] = table[time_name]
+        columns_of_frame["time"] = table[time_name]
     for name in chosen:
-        frame[name] = table[name]
+        columns_of_frame[name] = table[name]
+    frame = pd.DataFrame(columns_of_frame, index=table.index, copy=False)
     blank = _blank_rows(table) if not raw.geometry else np.zeros(len(table), bool)
     cell_text = None
     if raw.cells is not None:
@@ -235,9 +237,16 @@ def _mostly_numeric(column: pd.Series) -> bool:
 
 
 def _blank_rows(table: pd.DataFrame) -> np.ndarray:
-    """Rows whose every cell is empty (NaN, or text of blanks)."""
+    """Rows whose every cell is empty (NaN, or text of blanks).
+
+    Columns of numbers are looked at first: they are quick to test, and once no row is blank
+    in one column, the text columns need no stripping.
+    """
     blank = np.ones(len(table), bool)
-    for name in table.columns:
+    numeric = [pd.api.types.is_numeric_dtype(table[name]) for name in table.columns]
+    ordered = [name for name, number in zip(table.columns, numeric, strict=True) if number]
+    ordered += [name for name, number in zip(table.columns, numeric, strict=True) if not number]
+    for name in ordered:
         column = table[name]
         empty = column.isna().to_numpy()
         if not pd.api.types.is_numeric_dtype(column):
@@ -246,6 +255,84 @@ def _blank_rows(table: pd.DataFrame) -> np.ndarray:
         if not blank.any():
             break
     return blank
+
+
+def _normalised_longitude(lon: np.ndarray) -> np.ndarray:
+    """``((lon + 180) % 360) - 180`` where finite (non-finite values kept), into [-180, 180).
+
+    The remainder is taken only where ``lon + 180`` is outside [0, 360), elsewhere it is that
+    sum itself (``fmod`` is exact), so the result is the same, bit for bit, and quicker.
+    """
+    shifted = lon + 180.0
+    with np.errstate(invalid="ignore"):
+        outside = ~((shifted >= 0.0) & (shifted < 360.0))
+    if outside.any():
+        finite = np.isfinite(lon)
+        wrap = outside & finite
+        shifted[wrap] = shifted[wrap] % 360.0
+        result = shifted - 180.0
+        result[~finite] = lon[~finite]
+        return result
+    return shifted - 180.0
+
+
+def _arrow_text(text: pd.Series):
+    """The offsets and bytes of a text column without missing cells held as arrow strings,
+    else None."""
+    dtype = text.dtype
+    if not (isinstance(dtype, pd.StringDtype) and dtype.storage == "pyarrow") or text.hasnans:
+        return None
+    array = text.array.__arrow_array__()
+    array = array.combine_chunks() if array.num_chunks != 1 else array.chunk(0)
+    return _string_buffers(array)
+
+
+def _stripped(text: pd.Series) -> pd.Series:
+    """``text.str.strip()``; the text itself when no cell begins or ends with a byte that may
+    be white space (the usual column of line ids), which is quicker to find out than to strip."""
+    buffers = _arrow_text(text)
+    if buffers is None or not len(text):
+        return text.str.strip()
+    offsets, data = buffers
+    if not data.size:
+        return text  # every cell empty
+    # First and last byte of each cell (of a neighbour for an empty cell: at worst a strip).
+    # White space as str.strip sees it is among the bytes up to 32 (ASCII) and from 128 (any
+    # byte of a multibyte character: U+0085, U+00A0, U+3000 ...).
+    for ends in (data[np.minimum(offsets[:-1], data.size - 1)], data[np.maximum(offsets[1:] - 1, 0)]):
+        if np.any((ends <= 32) | (ends >= 128)):
+            return text.str.strip()
+    return text
+
+
+def _is_one_of(text: pd.Series, words: list[str]) -> np.ndarray:
+    """``text.isin(words).to_numpy()``, looking only at cells no longer (in UTF-8 bytes) than
+    the longest word."""
+    buffers = _arrow_text(text)
+    if buffers is None:
+        return text.isin(words).to_numpy(dtype=bool)
+    longest = max(len(w.encode("utf-8")) for w in words)
+    short = np.flatnonzero(np.diff(buffers[0]) <= longest)
+    found = np.zeros(len(text), bool)
+    if short.size:
+        found[short] = text.iloc[short].isin(words).to_numpy(dtype=bool)
+    return found
+
+
+def _string_buffers(array) -> tuple[np.ndarray, np.ndarray] | None:
+    """Offsets (one more than cells) and bytes of a pyarrow string array; None for another type."""
+    import pyarrow as pa
+
+    if pa.types.is_large_string(array.type):
+        offset_type = np.int64
+    elif pa.types.is_string(array.type):
+        offset_type = np.int32
+    else:
+        return None
+    _, offset_buffer, data_buffer = array.buffers()
+    offsets = np.frombuffer(offset_buffer, dtype=offset_type)[array.offset : array.offset + len(array) + 1]
+    data = np.frombuffer(data_buffer, dtype=np.uint8) if data_buffer is not None else np.zeros(0, np.uint8)
+    return offsets, data
 
 
 def _numbers(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -280,6 +367,9 @@ def _times(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     text. One cell that is not a number settles it, so the first few present cells are tried
     first and a column of ISO 8601 times is never parsed as numbers in full (which is slow:
     every cell fails). The result is the same as parsing every cell as a number first.
+
+    A column of times all written in one fixed layout (see :func:`_fixed_layout_times`) is read
+    by array arithmetic on its bytes, with the same result as pandas' ISO 8601 parser.
     """
     if pd.api.types.is_datetime64_any_dtype(column):
         parsed = pd.to_datetime(column, utc=True)
@@ -289,6 +379,10 @@ def _times(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
         numeric, missing, _ = _numbers(column)
         return numeric, missing, ~missing & ~np.isfinite(numeric)
+    fixed = _fixed_layout_times(column)
+    if fixed is not None:
+        seconds, missing = fixed
+        return seconds, missing, np.zeros(len(seconds), bool)
     text, missing = _cells(column)
     probe = text.iloc[np.flatnonzero(~missing)[:_TIME_PROBE]]
     if not pd.to_numeric(probe, errors="coerce").isna().any():
@@ -298,6 +392,108 @@ def _times(column: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     parsed = pd.to_datetime(text.where(~missing, None), utc=True, errors="coerce", format="ISO8601")
     seconds = (parsed - pd.Timestamp("1970-01-01", tz="UTC")).dt.total_seconds().to_numpy(dtype=float)
     return seconds, missing, np.isnan(seconds) & ~missing
+
+
+#: Character positions of the digits of ``YYYY-MM-DDTHH:MM:SS``, and of its separators with the
+#: bytes each may be (``T`` or a space between date and time).
+_TIME_DIGITS = np.array([0, 1, 2, 3, 5, 6, 8, 9, 11, 12, 14, 15, 17, 18])
+_TIME_SEPARATORS = {4: b"-", 7: b"-", 10: b"T ", 13: b":", 16: b":", 19: b"Z"}
+#: Smallest and largest month, day, hour, minute and second (days checked against the month).
+_TIME_LOW = np.array([1, 1, 0, 0, 0])
+_TIME_HIGH = np.array([12, 31, 23, 59, 59])
+
+
+def _fixed_layout_times(column: pd.Series) -> tuple[np.ndarray, np.ndarray] | None:
+    """Seconds since 1970 UTC and the missing mask of a column whose present cells are all
+    times written ``YYYY-MM-DDTHH:MM:SS`` (``T`` or a space between date and time, an optional
+    ``Z``: one of these layouts throughout, whole seconds), read by array arithmetic on the
+    bytes of the cells; None for any other column, which pandas' ISO 8601 parser then reads.
+
+    Every time must be a real one (month 1-12, a day of that month in the proleptic Gregorian
+    calendar, hour 0-23, minute and second 0-59, year 1 or later), else None: the result is
+    always the one of ``pandas.to_datetime(..., format="ISO8601", utc=True)``, which the tests
+    check. The calendar is numpy's ``datetime64`` (the days of a month run from its first day to
+    the next month's).
+    """
+    import pyarrow as pa
+
+    if not (pd.api.types.is_string_dtype(column) or column.dtype == object) or len(column) == 0:
+        return None
+    try:
+        array = pa.array(column, from_pandas=True)
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        return None
+    if isinstance(array, pa.ChunkedArray):
+        array = array.combine_chunks()
+    buffers = _string_buffers(array)
+    if buffers is None:
+        return None
+    n = len(array)
+    offsets, data = buffers
+    lengths = np.diff(offsets)
+    present = ~array.is_null().to_numpy(zero_copy_only=False) if array.null_count else np.ones(n, bool)
+    some = np.flatnonzero(present)
+    width = int(lengths[some[0]]) if some.size else 0
+    if width not in (19, 20):
+        return None
+    fixed = present & (lengths == width)
+    if fixed.all():
+        cells = data[offsets[0] : offsets[-1]].reshape(n, width)
+    else:
+        cells = data[offsets[:-1][fixed][:, None] + np.arange(width)]
+    separators = [position for position in _TIME_SEPARATORS if position < width]
+    template = cells[0, separators]
+    if any(int(byte) not in _TIME_SEPARATORS[p] for p, byte in zip(separators, template, strict=True)):
+        return None
+    missing = ~fixed
+    others = np.flatnonzero(missing & present)
+    if others.size and not _cells(column.iloc[others])[1].all():
+        return None  # cells in another layout: pandas reads the column
+    # Block by block: temporaries of a few tens of kilobytes, reused, rather than a dozen
+    # arrays as long as the column in fresh memory.
+    found = np.empty(len(cells))
+    for begin in range(0, len(cells), _TIME_BLOCK):
+        block = _block_seconds(cells[begin : begin + _TIME_BLOCK], separators, template)
+        if block is None:
+            return None
+        found[begin : begin + _TIME_BLOCK] = block
+    if fixed.all():
+        return found, missing
+    seconds = np.full(n, np.nan)
+    seconds[fixed] = found
+    return seconds, missing
+
+
+#: Times per block of :func:`_fixed_layout_times`.
+_TIME_BLOCK = 16384
+
+
+def _block_seconds(cells: np.ndarray, separators: list[int], template: np.ndarray) -> np.ndarray | None:
+    """Seconds since 1970 UTC of times, one per row of ``cells`` (their bytes), or None when a
+    row is not a real time in the layout of ``template`` (the bytes at ``separators``)."""
+    if np.any(cells[:, separators] != template):
+        return None
+    # One row per character position (each row then lies in one piece of memory); bytes
+    # below "0" wrap round to large values.
+    digits = np.subtract(cells.T, np.uint8(48), order="C")
+    if digits.max(axis=1)[_TIME_DIGITS].max() > 9:
+        return None
+    # Month, day, hour, minute, second (rows 5, 8, 11, 14, 17 and the next), year (rows 0-3).
+    fields = digits[5::3][:5].astype(np.int32) * 10 + digits[6::3][:5]
+    year = (digits[0].astype(np.int32) * 10 + digits[1]) * 100 + digits[2] * 10 + digits[3]
+    if np.any(fields < _TIME_LOW[:, None]) or np.any(fields > _TIME_HIGH[:, None]) or np.any(year < 1):
+        return None
+    month, day, hour, minute, second = fields
+    # Days since 1970 of the first day of each month spanned (few: the calendar is asked once
+    # per month, not once per cell), and of the month after it.
+    months = (year - 1970) * 12 + (month - 1)
+    earliest = months.min()
+    calendar = np.arange(earliest, months.max() + 2).astype("datetime64[M]").astype("datetime64[D]")
+    calendar = calendar.astype(np.int64)
+    first_day = calendar[months - earliest]
+    if np.any(day > calendar[months - earliest + 1] - first_day):
+        return None
+    return ((first_day + (day - 1)) * 86400 + (hour * 3600 + minute * 60 + second)).astype(float)
 
 
 def assemble_stations(
@@ -340,9 +536,13 @@ def assemble_stations(
     # The reason of each row as a number: 0 for none, else its place in ``labels``.
     labels: dict[str, int] = {"": 0}
     reason = np.zeros(n, dtype=np.int32)
-    if reasons is not None:
-        given, texts = pd.factorize(np.asarray(reasons, dtype=object))
-        reason = np.array([labels.setdefault(str(t), len(labels)) for t in texts], dtype=np.int32)[given]
+    if reasons is not None:  # None: no row has a reason yet
+        reasons = np.asarray(reasons, dtype=object)
+        given = np.flatnonzero(reasons != "")
+        if given.size:
+            codes, texts = pd.factorize(reasons[given])
+            numbers = np.array([labels.setdefault(str(t), len(labels)) for t in texts], dtype=np.int32)
+            reason[given] = numbers[codes]
     if blank is None:
         blank = np.zeros(n, bool)
     notes: list[str] = []
@@ -355,8 +555,8 @@ def assemble_stations(
 
     mark(blank, "blank line")
     no_line = frame["line"].isna().to_numpy()
-    line = frame["line"].fillna("").astype(str).str.strip()
-    mark(no_line | line.isin(["", "nan", "None", "<NA>"]).to_numpy(), "missing line id")
+    line = _stripped(frame["line"].fillna("").astype(str))
+    mark(no_line | _is_one_of(line, ["", "nan", "None", "<NA>"]), "missing line id")
 
     lon, lon_missing, lon_text = _numbers(frame["lon"])
     lat, lat_missing, lat_text = _numbers(frame["lat"])
@@ -374,7 +574,7 @@ def assemble_stations(
         out_of_range = (np.abs(lat) > 90) | (lon < -180) | (lon > 360)
     mark(out_of_range, "coordinate out of range")
     mark((lon == 0) & (lat == 0), "position (0, 0)")
-    lon = np.where(np.isfinite(lon), ((lon + 180.0) % 360.0) - 180.0, lon)
+    lon = _normalised_longitude(lon)
 
     if has_time:
         time, time_missing, time_bad = _times(frame["time"])
@@ -402,7 +602,7 @@ def assemble_stations(
 
     stations = pd.DataFrame(
         {
-            "source": source,
+            "source": _repeated_text(source, n),
             "row": rows,
             "line": pd.array(line, dtype=str),
             "lon": np.where(np.isfinite(lon), lon, np.nan),
@@ -410,10 +610,10 @@ def assemble_stations(
             "time": time,
             "status": pd.array([USED, DROPPED], dtype=str).take((reason != 0).astype(np.intp)),
             "reason": pd.array(list(labels), dtype=str).take(reason),
-        }
+            **{name: values[name] for name in fields},
+        },
+        copy=False,
     )
-    for name in fields:
-        stations[name] = values[name]
     stations, moved = _order(stations, has_time, reason == 0)
     if moved:
         notes.append(
@@ -422,7 +622,7 @@ def assemble_stations(
         )
     assert tuple(stations.columns[: len(BASE_COLUMNS)]) == BASE_COLUMNS
     survey = Survey(stations.reset_index(drop=True), tuple(fields), (source,), tuple(notes))
-    if not (survey.stations["status"] == USED).any():
+    if not (reason == 0).any():  # no row is used
         accounting = survey.accounting
         reasons_text = ", ".join(f"{k}: {v}" for k, v in sorted(accounting.dropped.items()))
         text_cells = np.flatnonzero(reason == labels.get("non-numeric coordinate", -1))
@@ -508,7 +708,7 @@ def _check_degrees(lon, lat, valid, source, names, rows) -> None:
     """Refuse coordinates that are clearly projected or swapped (most values out of range)."""
     if np.count_nonzero(valid) < 2:
         return  # one row is no evidence about the columns; it is dropped if out of range
-    lo, la = lon[valid], lat[valid]
+    lo, la = (lon, lat) if valid.all() else (lon[valid], lat[valid])
     lat_bad = np.abs(la) > 90
     lon_bad = (lo < -180) | (lo > 360)
     if lat_bad.mean() > 0.5 or lon_bad.mean() > 0.5:
@@ -545,7 +745,7 @@ def _order(stations: pd.DataFrame, has_time: bool, used: np.ndarray) -> tuple[pd
     Returns the ordered table and the number of used stations (``used``) whose place within
     their line differs from file order because of their time.
     """
-    codes, _ = pd.factorize(stations["line"], sort=False)
+    codes = _line_codes(stations["line"])
     row = stations["row"].to_numpy()
     by_row = _sort_order(codes, row)
     if not has_time:
@@ -560,6 +760,34 @@ def _order(stations: pd.DataFrame, has_time: bool, used: np.ndarray) -> tuple[pd
     by_time = in_order if by_time is None else by_time
     moved = int(np.count_nonzero(by_time[used[by_time]] != by_row[used[by_row]]))
     return ordered, moved
+
+
+def _repeated_text(text: str, n: int):
+    """A column of ``n`` copies of ``text`` as pandas builds it from the scalar (dtype
+    ``str``), built by pyarrow directly where that dtype is arrow strings (quicker)."""
+    import pyarrow as pa
+
+    dtype = pd.array([text], dtype=str).dtype
+    if isinstance(dtype, pd.StringDtype) and dtype.storage == "pyarrow":
+        return pd.array(pa.repeat(pa.scalar(text, pa.large_string()), n), dtype=dtype)
+    return pd.array(np.full(n, text, dtype=object), dtype=str)
+
+
+def _line_codes(line: pd.Series) -> np.ndarray:
+    """``pandas.factorize(line, sort=False)[0]``: 0, 1, 2, ... by first appearance.
+
+    Where each line's stations are one run (the usual file), the codes are the run numbers,
+    found by comparing neighbours, which is much quicker than hashing every id.
+    """
+    values = line.array
+    if len(values) < 2 or line.hasnans:
+        return pd.factorize(line, sort=False)[0]
+    changes = np.asarray(values[1:] != values[:-1], dtype=bool)
+    run = np.concatenate([[0], np.cumsum(changes)])
+    firsts = values.take(np.concatenate([[0], np.flatnonzero(changes) + 1]))
+    if len(pd.unique(firsts)) != len(firsts):
+        return pd.factorize(line, sort=False)[0]
+    return run
 
 
 def _sort_order(*keys: np.ndarray) -> np.ndarray | None:

@@ -111,13 +111,15 @@ class Survey:
     @property
     def accounting(self) -> RowAccounting:
         """Row accounting of this survey."""
-        status = self.stations["status"].to_numpy()
-        dropped = Counter(self.stations["reason"].to_numpy()[status == DROPPED])
+        # Compared as stored (arrow strings): no conversion of the columns to Python strings.
+        status = self.stations["status"]
+        dropped = (status == DROPPED).to_numpy(dtype=bool)
+        reasons = Counter(self.stations["reason"][dropped].tolist()) if dropped.any() else Counter()
         accounting = RowAccounting(
             read=len(self.stations),
-            used=int(np.count_nonzero(status == USED)),
-            merged=int(np.count_nonzero(status == MERGED)),
-            dropped={str(k): int(v) for k, v in dropped.items()},
+            used=int((status == USED).to_numpy(dtype=bool).sum()),
+            merged=int((status == MERGED).to_numpy(dtype=bool).sum()),
+            dropped={str(k): int(v) for k, v in reasons.items()},
         )
         accounting.check()
         return accounting
@@ -125,7 +127,7 @@ class Survey:
     @property
     def used(self) -> pd.DataFrame:
         """The used stations only."""
-        return self.stations[self.stations["status"].to_numpy() == USED]
+        return self.stations[(self.stations["status"] == USED).to_numpy(dtype=bool)]
 
     @property
     def lines(self) -> tuple[str, ...]:

@@ -30,6 +30,8 @@ import codecs
 import csv
 import io
 import re
+import warnings
+from functools import cached_property
 from pathlib import Path
 
 import numpy as np
@@ -119,18 +121,30 @@ def read_text(path: Path, *, line_column: str | None = None, fast: bool = True) 
         raw = path.read_bytes()
     except OSError as error:
         raise InputError(f"{source}: cannot be read ({error.strerror or error})") from None
-    if not raw.strip():
+    if not raw or raw.isspace():  # as not raw.strip(), without copying the file
         raise InputError(f"{source}: file is empty; expected a header row and data rows")
     for signature, message in _SIGNATURES:
         if raw.startswith(signature):
             raise InputError(f"{source}: {message}")
-    text, notes = _decode(raw, source)
-    if "\x00" in text[:65536]:
+    if raw.isascii() and _utf16_without_bom(raw) is None:
+        # ASCII (no byte-order mark is ASCII): the bytes are the UTF-8 text, decoded line by
+        # line only where a line is needed as text.
+        data, notes = raw, []
+        binary = b"\x00" in raw[:65536]
+        file_bytes = True
+    else:
+        text, notes = _decode(raw, source)
+        binary = "\x00" in text[:65536]
+        data = text.encode("utf-8")
+        file_bytes = False
+    if binary:
         raise InputError(f"{source}: binary content; expected a delimited text file with a header row")
-    if "\r" in text:
-        # The line ends of _NEWLINE (CR LF, CR, LF) as LF: the same lines, split by one character.
-        text = text.replace("\r\n", "\n").replace("\r", "\n")
-    lines = _Lines(text)
+    if b"\r" in data:
+        # The line ends of _NEWLINE (CR LF, CR, LF) as LF: the same lines, split by one character
+        # (in UTF-8 a byte 13 or 10 is always that character).
+        data = data.replace(b"\r\n", b"\n").replace(b"\r", b"\n")
+        file_bytes = False
+    lines = _Lines(data)
 
     # Preamble: blank lines, comment lines, an Excel "sep=;" line.
     delimiter = None
@@ -162,8 +176,8 @@ def read_text(path: Path, *, line_column: str | None = None, fast: bool = True) 
             f"{source}: line {first + 1} holds numbers, not column names; "
             f"expected a header row such as 'line,lon,lat,depth_m'"
         )
-    body_text = lines.body(first)
-    if not body_text.strip():
+    start, end = lines.body_span(first)
+    if _blank_text(data, start, end, lambda: lines.body(first)):
         raise InputError(
             f"{source}: has a header row ({len(names)} columns) but no data rows; "
             f"expected one row per station below the header"
@@ -176,25 +190,35 @@ def read_text(path: Path, *, line_column: str | None = None, fast: bool = True) 
 
     parsed = None
     if fast and delimiter != " " and len(delimiter.encode("utf-8")) == 1 and delimiter not in '\n"':
-        layout = _Layout(body_text, delimiter, header.strip())
-        blank, repeated = layout.blank, layout.repeated
-        ragged = ~blank & ~repeated & (layout.counts != len(names))
-        parsed = _fast_table(layout, ~ragged & ~blank & ~repeated, names, as_text)
+        for detailed in (False, True):
+            # The C parser may read the file itself, skipping the lines before the body, when the
+            # data are the file's bytes and none of those lines holds a quote (which could make
+            # the parser count them otherwise).
+            file = (source, first + 1) if file_bytes and data.find(b'"', 0, start) < 0 else None
+            layout = _Layout(data, start, end, delimiter, header.strip(), width=len(names),
+                             detailed=detailed, n_lines=len(lines) - first - 1, file=file)
+            blank, repeated = layout.blank, layout.repeated
+            ragged = ~blank & ~repeated & (layout.counts != len(names))
+            parsed = _fast_table(layout, ~ragged & ~blank & ~repeated, names, as_text)
+            if parsed is not None or layout.detailed:
+                break
     if parsed is not None:
         table, cell = parsed
     else:
         cell = None
-        body = body_text.split("\n")
+        body = lines.body(first).split("\n")
         blank = np.array([not line.strip() for line in body], dtype=bool)
         stripped_header = header.strip()
         repeated = np.array([line.strip() == stripped_header for line in body], dtype=bool)
         counts = _field_counts(body, delimiter)
         ragged = ~blank & ~repeated & (counts != len(names))
         table = _parse_cells(body, ~ragged & ~blank & ~repeated, names, delimiter)
-    reasons = np.full(len(blank), "", dtype=object)
-    reasons[blank] = "blank line"
-    reasons[repeated] = "repeated header"
-    reasons[ragged] = "wrong number of fields"
+    reasons = None  # no row has a reason (the usual clean file)
+    if blank.any() or repeated.any() or ragged.any():
+        reasons = np.full(len(blank), "", dtype=object)
+        reasons[blank] = "blank line"
+        reasons[repeated] = "repeated header"
+        reasons[ragged] = "wrong number of fields"
     if repeated.any():
         notes.append(
             f"{source}: the header is repeated at {rows_text(np.flatnonzero(repeated) + first + 2)} "
@@ -220,32 +244,34 @@ def read_text(path: Path, *, line_column: str | None = None, fast: bool = True) 
 
 
 class _Lines:
-    """The lines of a text whose line ends are LF, split only as far as they are asked for.
+    """The lines of a UTF-8 text whose line ends are LF, split only as far as they are asked
+    for, each decoded when it is asked for.
 
     ``lines[i]`` and ``len(lines)`` are those of ``text.split("\\n")`` without the empty
     string after a final newline (that newline ends the last row, it is no blank row).
     """
 
-    def __init__(self, text: str):
-        self.text = text
+    def __init__(self, data: bytes):
+        self.data = data
         self._starts = [0]  # offset of each line found so far
-        self._end = len(text) - 1 if text.endswith("\n") else len(text)
-        self._count = text.count("\n", 0, self._end) + 1 if text else 0
+        self._end = len(data) - 1 if data.endswith(b"\n") else len(data)
+        newlines = _count_byte(np.frombuffer(data, dtype=np.uint8), 10)  # always a line end in UTF-8
+        self._count = newlines - (self._end < len(data)) + 1 if data else 0
 
     def __len__(self) -> int:
         return self._count
 
     def _start(self, i: int) -> int:
         while len(self._starts) <= i:
-            self._starts.append(self.text.index("\n", self._starts[-1]) + 1)
+            self._starts.append(self.data.index(b"\n", self._starts[-1]) + 1)
         return self._starts[i]
 
     def __getitem__(self, i: int) -> str:
         if not 0 <= i < self._count:
             raise IndexError(i)
         start = self._start(i)
-        stop = self.text.find("\n", start, self._end)
-        return self.text[start : self._end if stop < 0 else stop]
+        stop = self.data.find(b"\n", start, self._end)
+        return self.data[start : self._end if stop < 0 else stop].decode("utf-8")
 
     def after(self, i: int, count: int) -> list[str]:
         """Up to ``count`` lines after line ``i``."""
@@ -253,9 +279,36 @@ class _Lines:
 
     def body(self, i: int) -> str:
         """The lines after line ``i`` as one text, joined by LF (no final newline)."""
+        start, end = self.body_span(i)
+        return self.data[start:end].decode("utf-8")
+
+    def body_span(self, i: int) -> tuple[int, int]:
+        """Where :meth:`body` lies in the bytes: ``data[start:end]``."""
         if i + 1 >= self._count:
-            return ""
-        return self.text[self._start(i + 1) : self._end]
+            return self._end, self._end
+        return self._start(i + 1), self._end
+
+
+def _count_byte(codes: np.ndarray, value: int, chunk: int = 1 << 18) -> int:
+    """Occurrences of a byte value in an array of bytes, counted a quarter megabyte at a time
+    (no temporary array as large as the file: a fresh one costs more in page faults than the
+    count itself)."""
+    return sum(int(np.count_nonzero(codes[i : i + chunk] == value)) for i in range(0, codes.size, chunk))
+
+
+#: The first byte that is not ASCII white space as :meth:`str.isspace` sees it.
+_NOT_BLANK = re.compile(rb"[^\t\n\x0b\x0c\r\x1c-\x1f ]")
+
+
+def _blank_text(data: bytes, start: int, end: int, text) -> bool:
+    """Whether the UTF-8 bytes ``data[start:end]`` are empty or white space only
+    (``not text().strip()``), looking at the bytes up to the first that is not ASCII white
+    space; ``text()`` (the decoded text) is asked for only when that byte begins a multibyte
+    character, which may be white space."""
+    found = _NOT_BLANK.search(data, start, end)
+    if found is None:
+        return True
+    return data[found.start()] >= 128 and not text().strip()
 
 
 #: Bytes that may begin a line of blanks: ASCII white space (as :meth:`str.strip` sees it) and
@@ -266,54 +319,106 @@ _MAY_BE_BLANK[128:] = True
 
 
 class _Layout:
-    """The rows of a body of text found by array operations on its UTF-8 bytes.
+    """The rows of a body of text (its UTF-8 bytes) found by array operations.
 
     ``blank``, ``repeated`` and ``counts`` (fields per row) are those of the careful path, one
-    entry per line. A line is blank only if its first character is white space, so only such
-    lines are tested with :meth:`str.strip`; only lines holding a quote are split by the
-    :mod:`csv` module (``quoted``), and only lines holding the header text are compared with it.
+    entry per line.
+
+    A text without quotes whose delimiters number exactly ``width - 1`` times its lines is
+    taken as uniform (``detailed`` False): every line is then assumed to hold ``width`` fields,
+    and so to be neither blank nor ragged, which the C parser confirms (it refuses a line with
+    more fields than ``width``, and with equal totals no line can then have fewer); when it
+    refuses, the layout is found line by line (``detailed=True``). Line by line, a line is blank
+    only if its first character is white space, so only such lines are tested with
+    :meth:`str.strip`; only lines holding a quote are split by the :mod:`csv` module
+    (``quoted``). In both, only lines holding the header text are compared with it.
     """
 
-    def __init__(self, body_text: str, delimiter: str, header: str):
+    def __init__(
+        self, data: bytes, start: int, end: int, delimiter: str, header: str, *, width: int,
+        detailed: bool = False, n_lines: int | None = None, file: tuple[str, int] | None = None,
+    ):
         self.delimiter = delimiter
-        self.data = data = body_text.encode("utf-8")
-        codes = np.frombuffer(data, dtype=np.uint8)
-        newlines = np.flatnonzero(codes == 10)
-        self.starts = starts = np.concatenate([[0], newlines + 1])
-        self.ends = ends = np.append(newlines, len(data))
-        # Delimiters before the end of each line; those of line i lie between ends i-1 and i.
-        before_end = np.searchsorted(np.flatnonzero(codes == ord(delimiter)), ends)
-        self.counts = np.diff(before_end, prepend=0) + 1
-        quotes = np.flatnonzero(codes == ord('"'))
-        self.quoted = np.unique(np.searchsorted(starts, quotes, side="right") - 1)
-        for i in self.quoted:
-            self.counts[i] = len(self.fields(i))
-        self.blank = np.zeros(len(starts), dtype=bool)
-        maybe = (starts == ends) | _MAY_BE_BLANK[codes[np.minimum(starts, len(data) - 1)]]
-        for i in np.flatnonzero(maybe):
-            self.blank[i] = not self.line(i).strip()
-        self.repeated = np.zeros(len(starts), dtype=bool)
+        self.file = file  # (path, lines before the body) when the data are the file's bytes
+        self.data, self.start, self.end = data, start, end  # the body is data[start:end]
+        codes = np.frombuffer(data, dtype=np.uint8)[start:end]
+        if n_lines is None:  # else counted already: line ends + 1
+            n_lines = _count_byte(codes, 10) + 1
+        self.n_lines = n_lines
+        self.detailed = detailed or not (
+            width >= 2
+            and data.find(b'"', start, end) < 0
+            and _count_byte(codes, ord(delimiter)) == n_lines * (width - 1)
+        )
+        if self.detailed:
+            starts, ends = self.starts, self.ends
+            # Delimiters before the end of each line; those of line i lie between ends i-1 and i.
+            before_end = np.searchsorted(np.flatnonzero(codes == ord(delimiter)), ends)
+            self.counts = np.diff(before_end, prepend=0) + 1
+            quotes = np.flatnonzero(codes == ord('"'))
+            self.quoted = np.unique(np.searchsorted(starts, quotes, side="right") - 1)
+            for i in self.quoted:
+                self.counts[i] = len(self.fields(i))
+            self.blank = np.zeros(n_lines, dtype=bool)
+            maybe = (starts == ends) | _MAY_BE_BLANK[codes[np.minimum(starts, max(codes.size - 1, 0))]]
+            for i in np.flatnonzero(maybe):
+                self.blank[i] = not self.line(i).strip()
+        else:
+            self.counts = np.full(n_lines, width)
+            self.quoted = np.zeros(0, dtype=np.intp)
+            self.blank = np.zeros(n_lines, dtype=bool)
+        self.repeated = np.zeros(n_lines, dtype=bool)
         target = header.encode("utf-8")
-        at = data.find(target)
+        at = data.find(target, start, end)
         while at >= 0:
-            i = int(np.searchsorted(starts, at, side="right") - 1)
+            i = int(np.searchsorted(self.starts, at - start, side="right") - 1)
             self.repeated[i] = self.line(i).strip() == header
-            at = data.find(target, int(ends[i]))
+            at = data.find(target, start + int(self.ends[i]), end)
+
+    @cached_property
+    def starts(self) -> np.ndarray:
+        """Offset of the first byte of each line, from the start of the body."""
+        codes = np.frombuffer(self.data, dtype=np.uint8)[self.start : self.end]
+        return np.concatenate([[0], np.flatnonzero(codes == 10) + 1])
+
+    @cached_property
+    def ends(self) -> np.ndarray:
+        """Offset of the line end (or the end of the body) of each line."""
+        return np.append(self.starts[1:] - 1, self.end - self.start)
 
     def line(self, i: int) -> str:
-        return self.data[self.starts[i] : self.ends[i]].decode("utf-8")
+        return self.data[self.start + self.starts[i] : self.start + self.ends[i]].decode("utf-8")
 
     def fields(self, i: int) -> list[str]:
         return _split(self.line(i), self.delimiter)
 
-    def without(self, bad: np.ndarray) -> bytes:
-        """The bytes with the lines flagged ``bad`` emptied (their line ends kept)."""
+    def holds(self, text: bytes) -> bool:
+        """Whether the body holds these bytes."""
+        return self.data.find(text, self.start, self.end) >= 0
+
+    def begins_with(self, text: bytes) -> bool:
+        """Whether the body begins with these bytes."""
+        return self.data.startswith(text, self.start)
+
+    def without(self, bad: np.ndarray) -> tuple[object, int]:
+        """The body with the lines flagged ``bad`` emptied (their line ends kept), to read: a
+        file or buffer for :func:`pandas.read_csv` and the number of lines to skip in it.
+
+        With no such line the body is read in place: from the file itself when it is the data
+        (``file``: the C parser then reads it in pieces, as it reads a path), else from the
+        data without copying it. What follows the body is at most the final line end, which
+        ends the last line (none is blank here).
+        """
         bad = np.flatnonzero(bad)
         if not bad.size:
-            return self.data
-        keep_from = np.concatenate([[0], self.ends[bad]]).tolist()
-        keep_to = np.append(self.starts[bad], len(self.data)).tolist()
-        return b"".join(self.data[a:b] for a, b in zip(keep_from, keep_to, strict=True))
+            if self.file is not None:
+                return self.file
+            stream = io.BytesIO(self.data)  # shares the bytes until written to
+            stream.seek(self.start)
+            return stream, 0
+        keep_from = (np.concatenate([[0], self.ends[bad]]) + self.start).tolist()
+        keep_to = (np.append(self.starts[bad], self.end - self.start) + self.start).tolist()
+        return io.BytesIO(b"".join(self.data[a:b] for a, b in zip(keep_from, keep_to, strict=True))), 0
 
 
 def _fast_table(layout: _Layout, good: np.ndarray, names: list[str], as_text: list[bool]):
@@ -329,31 +434,23 @@ def _fast_table(layout: _Layout, good: np.ndarray, names: list[str], as_text: li
     count other than one per line (a quote left open swallows later lines), or a line with
     quotes whose cells differ from the module's.
     """
-    data = layout.without(~good)
-    if b"\x00" in data or data.startswith(codecs.BOM_UTF8):
+    if layout.holds(b"\x00") or layout.begins_with(codecs.BOM_UTF8):
         return None
     options = dict(
         sep=layout.delimiter,
         header=None,
+        names=list(range(len(names))),
+        encoding="utf-8",
         keep_default_na=False,
         na_values=[""],
         skip_blank_lines=False,
-        low_memory=False,  # one type per column, not one per chunk of rows
         engine="c",
     )
     try:
-        table = pd.read_csv(io.BytesIO(data), encoding="utf-8", names=list(range(len(names))), **options)
+        table = _parse(layout.without, ~good, options)
         for i in [i for i, text in enumerate(as_text) if text and not _is_text(table[i])]:
             # Line ids or times that read as numbers: again as text ("007" stays "007").
-            again = pd.read_csv(
-                io.BytesIO(data),
-                encoding="utf-8",
-                names=list(range(len(names))),
-                usecols=[i],
-                dtype=str,
-                **options,
-            )
-            table[i] = again[i]
+            table[i] = _parse(layout.without, ~good, {**options, "usecols": [i], "dtype": str})[i]
     except (pd.errors.ParserError, ValueError):
         return None
     if len(table) != len(good):
@@ -373,6 +470,26 @@ def _fast_table(layout: _Layout, good: np.ndarray, names: list[str], as_text: li
         return layout.fields(position)[names.index(name)].strip()
 
     return table, cell
+
+
+def _parse(without, bad: np.ndarray, options: dict) -> pd.DataFrame:
+    """``pandas.read_csv`` of the body without the ``bad`` lines (``without(bad)``: what to read
+    and the lines to skip in it), with one type per column.
+
+    The C parser reads a quarter megabyte of rows at a time (its default, ``low_memory``), which
+    is quicker and needs less memory than the whole file at once; it then types each column
+    within each piece. Where pieces of a column get types that do not join (text in one, numbers
+    in another: pandas warns of mixed types), the file is read again whole, as one piece, so
+    that each column gets one type from all its cells.
+    """
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", pd.errors.DtypeWarning)
+            source, skip = without(bad)
+            return pd.read_csv(source, skiprows=skip, low_memory=True, **options)
+    except pd.errors.DtypeWarning:
+        source, skip = without(bad)
+        return pd.read_csv(source, skiprows=skip, low_memory=False, **options)
 
 
 def _is_text(column: pd.Series) -> bool:

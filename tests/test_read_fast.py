@@ -226,3 +226,112 @@ def test_other_delimiters_and_line_ends(tmp_path):
         path = tmp_path / "line_ends.csv"
         path.write_bytes(end.join([HEADER, *rows[:10], "", *rows[10:]]).encode() + end.encode())
         _assert_same(path)
+
+
+def test_balanced_long_and_short_rows(tmp_path):
+    # One row with a field too many and one with a field too few: the file's delimiters
+    # number exactly (fields - 1) times its lines, so the reader first takes every line to
+    # have five fields; the C parser refuses the long row and the layout is then found line
+    # by line. Outside reference: the csv module's field count of each line.
+    rows = _rows()
+    rows[4] = rows[4] + ",12"
+    rows[11] = rows[11].rsplit(",", 1)[0]
+    path = _write(tmp_path, "balanced.csv", [HEADER, *rows])
+    lines = path.read_text(encoding="utf-8").splitlines()
+    assert sum(line.count(",") for line in lines[1:]) == 4 * len(rows)
+    wrong = [n for n, row in enumerate(csv.reader(lines), start=1) if n > 1 and len(row) != 5]
+    stations = _survey(path, fast=True)[1].stations.set_index("row")
+    assert sorted(stations.index[stations["reason"] == "wrong number of fields"]) == wrong == [6, 13]
+    assert read_text(path).cells is not None  # still the fast path, line by line
+    _assert_same(path)
+
+
+def test_uniform_file_takes_the_whole_file_layout(tmp_path):
+    # Guards the shortcut: a clean file, and one with the header repeated inside (a line with
+    # as many delimiters as any), are read without splitting every line; the repeated header
+    # is still found and dropped, as the careful path does.
+    from profiles.textfile import _Layout
+
+    rows = _rows()
+    clean = _write(tmp_path, "clean.csv", [HEADER, *rows])
+    joined = _write(tmp_path, "joined.csv", [HEADER, *rows[:20], HEADER, *rows[20:]])
+    for path, repeated in ((clean, []), (joined, [22])):
+        data = path.read_bytes()
+        layout = _Layout(data, len(HEADER) + 1, len(data) - 1, ",", HEADER, width=5)
+        assert not layout.detailed
+        assert (np.flatnonzero(layout.repeated) + 2).tolist() == repeated
+        stations = _survey(path, fast=True)[1].stations.set_index("row")
+        assert stations.index[stations["reason"] == "repeated header"].tolist() == repeated
+        _assert_same(path)
+
+
+def test_text_far_down_a_column_of_numbers(tmp_path):
+    # The C parser types each column in pieces of rows; text in a later piece of a column of
+    # numbers (and ids that are numbers in one piece, text in another) makes pandas warn of
+    # mixed types, and the reader then reads the file as one piece. Outside reference: the
+    # careful path (csv module) gives the same survey; "deep" is no number (Python's float).
+    count = 150_000
+    rows = [f"{7 if i < 100_000 else 'L8'},{1_700_000_000 + 50 * i},{-30 + 1e-5 * i:.6f},-20,{3000 + i % 7}"
+            for i in range(count)]
+    rows[140_000] = rows[140_000].rsplit(",", 1)[0] + ",deep"
+    path = _write(tmp_path, "long.csv", [HEADER, *rows])
+    with pytest.warns(pd.errors.DtypeWarning):  # guard: the pieces do disagree
+        pd.read_csv(path, low_memory=True)
+    raw = read_text(path)
+    assert raw.cells is not None  # the fast path, read again as one piece
+    for name in ("line", "depth_m"):  # one type from all cells: text, not numbers and text
+        assert all(isinstance(v, str) for v in raw.table[name].dropna())
+    stations = _survey(path, fast=True)[1].stations.set_index("row")
+    assert stations.loc[140_002, "reason"] == "non-numeric value in depth_m"
+    assert set(stations["line"]) == {"7", "L8"}
+    _assert_same(path)
+
+
+
+@pytest.mark.parametrize(
+    "preamble",
+    [[], [""], ["# survey KR-03", ""], ["", "  ", "# a comment, with commas, and: colons", "sep=,"],
+     ["\t", "# 'single' quotes", "#"]],
+)
+def test_preamble_lines_are_skipped_when_the_parser_reads_the_file(tmp_path, preamble, monkeypatch):
+    # A clean ASCII file is parsed by the C parser straight from the file, skipping the lines
+    # before the body: blank lines, comments and a "sep=" line count as lines. Outside
+    # reference: the csv module's rows below the header.
+    rows = _rows(30)
+    path = _write(tmp_path, "preamble.csv", [*preamble, HEADER, *rows])
+    sources = []
+    parse = pd.read_csv
+
+    def spy(source, **options):
+        sources.append(source)
+        return parse(source, **options)
+
+    monkeypatch.setattr("profiles.textfile.pd.read_csv", spy)
+    raw = read_text(path)
+    monkeypatch.undo()
+    assert raw.cells is not None and sources == [str(path)]  # the fast path, from the file
+    with open(path, newline="", encoding="utf-8") as stream:
+        expected = list(csv.reader(stream))[len(preamble) + 1 :]
+    assert raw.table["line"].tolist() == [row[0] for row in expected]
+    np.testing.assert_array_equal(raw.table["depth_m"], [float(row[4]) for row in expected])
+    np.testing.assert_array_equal(raw.rows, np.arange(len(rows)) + len(preamble) + 2)
+    _assert_same(path)
+
+
+def test_a_quote_before_the_header_keeps_the_parser_off_the_file(tmp_path, monkeypatch):
+    # A double quote in a comment above the header could make the C parser count the lines it
+    # skips otherwise than the reader: the body is then given to it from memory. Outside
+    # reference: the careful path gives the same survey.
+    path = _write(tmp_path, "quoted_comment.csv", ['# the "KR" survey', HEADER, *_rows(20)])
+    sources = []
+    parse = pd.read_csv
+
+    def spy(source, **options):
+        sources.append(source)
+        return parse(source, **options)
+
+    monkeypatch.setattr("profiles.textfile.pd.read_csv", spy)
+    assert read_text(path).cells is not None
+    monkeypatch.undo()
+    assert len(sources) == 1 and not isinstance(sources[0], str)
+    _assert_same(path)
