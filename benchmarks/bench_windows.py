@@ -4,25 +4,35 @@ Target (windows issue): all windows of one 10^6-sample segment (window 1,024 sam
 256, about 3,900 windows) within 3x the time of a bare batched real FFT of the same windows
 (``sliding_window_view`` then ``numpy.fft.rfft`` along the last axis), both measured in this
 run. The script also times the parts, so that a ratio above the target shows where the time
-goes.
+goes. Every function is timed in every round, the rounds interleaved, and the best round of
+each is kept (a busy spell of a shared machine then hits all of them alike).
+
+Every numerical library runs one thread per process, as in ``bench_batch.py`` and in the Dask
+workers: the bare ``rfft`` is single-threaded, and on a busy two-core machine the thread pools
+of numpy's and scipy's BLAS (the matrix-vector sums and the rank-1 line removal of the
+transform's finishing pass) can spin against each other and slow those calls many times over.
 
     python benchmarks/bench_windows.py
-    python benchmarks/bench_windows.py --samples 200000 --repeat 3
+    python benchmarks/bench_windows.py --samples 200000 --repeat 5
     python benchmarks/bench_windows.py --detrend mean   # mean removed instead of a line
 """
 
 from __future__ import annotations
 
-import argparse
-import time
+import os
 
-import numpy as np
-from numpy.lib.stride_tricks import sliding_window_view
+for _name in ("OMP_NUM_THREADS", "MKL_NUM_THREADS", "OPENBLAS_NUM_THREADS"):
+    os.environ.setdefault(_name, "1")
 
-from profiles.resample import UniformSegment
-from profiles.spectral.harmonics import detrended_harmonics
-from profiles.spectral.preprocess import window_slopes
-from profiles.windows import _local_steps, along_track_windows
+import argparse  # noqa: E402
+import time  # noqa: E402
+
+import numpy as np  # noqa: E402
+from numpy.lib.stride_tricks import sliding_window_view  # noqa: E402
+
+from profiles.resample import UniformSegment  # noqa: E402
+from profiles.spectral.harmonics import detrended_harmonics  # noqa: E402
+from profiles.windows import _local_steps, _rolloff_band, along_track_windows  # noqa: E402
 
 
 def synthetic_segment(samples: int, spacing: float, seed: int = 0) -> UniformSegment:
@@ -60,7 +70,7 @@ def main() -> None:
     parser.add_argument("--samples", type=int, default=1_000_000)
     parser.add_argument("--window", type=int, default=1024, help="window length in samples")
     parser.add_argument("--step", type=int, default=256, help="step in samples")
-    parser.add_argument("--repeat", type=int, default=7)
+    parser.add_argument("--repeat", type=int, default=15)
     parser.add_argument("--detrend", choices=("linear", "mean"), default="linear")
     args = parser.parse_args()
     spacing = 250.0
@@ -75,28 +85,29 @@ def main() -> None:
         along_track_windows(track, window=args.window * spacing, step=args.step * spacing,
                             shortest_wavelength=4000.0, detrend=args.detrend)
 
-    ours()  # imports and caches (scipy.stats, the centred-index transform) outside the timing
-    times = timings({"bare": bare, "ours": ours}, args.repeat)
-    t_bare, t_ours = times["bare"].min(), times["ours"].min()
-    # Parts, for the record (the windows' own stages, on the same windows).
+    # Parts, for the record: the windows' own stages on the same windows.
     start = track.start + spacing * args.step * np.arange(count)
-    linear = args.detrend == "linear"
-    slopes = window_slopes(track.values, length=args.window, step=args.step) if linear else None
+    end = start + (args.window - 1) * spacing
+    median, _ = _local_steps(track.station_distance, start, end)
+    band = _rolloff_band(args.window, np.full(count, spacing), 2.0 * median)
     parts = {
-        "transform, variances and their sums (spectral.harmonics.detrended_harmonics)":
-            lambda: detrended_harmonics(frames, detrend=args.detrend, slope=slopes, peak_from=2),
-        "local station spacing (median and maximum)": lambda: _local_steps(
-            track.station_distance, start, start + (args.window - 1) * spacing),
+        "local station spacing, median and maximum (ranges.range_median_and_maximum)": lambda: _local_steps(
+            track.station_distance, start, end),
+        "transform, line, per-window sums (spectral.harmonics.detrended_harmonics)":
+            lambda: detrended_harmonics(frames, detrend=args.detrend, peak_from=2, band=band,
+                                        keep_power=False),
     }
-    if linear:
-        parts["slopes from shared block sums (spectral.preprocess.window_slopes)"] = lambda: window_slopes(
-            track.values, length=args.window, step=args.step)
+    functions = {"bare": bare, "ours": ours, **parts}
+    for function in functions.values():  # imports and caches (scipy, the centred-index transform)
+        function()
+    times = timings(functions, args.repeat)
+    t_bare, t_ours = times["bare"].min(), times["ours"].min()
     print(f"segment: {args.samples:,} samples; {count:,} windows of {args.window} samples, step {args.step}, "
-          f"detrend {args.detrend}")
+          f"detrend {args.detrend}; best of {args.repeat} interleaved rounds")
     print(f"bare rfft of the windows:   {1e3 * t_bare:8.2f} ms")
     print(f"profiles windows:           {1e3 * t_ours:8.2f} ms")
-    for name, function in parts.items():
-        t_part = timings({name: function}, args.repeat)[name].min()
+    for name in parts:
+        t_part = times[name].min()
         print(f"  {name}: {1e3 * t_part:.2f} ms ({t_part / t_bare:.2f} x bare)")
     rounds = times["ours"] / times["bare"]
     print(f"ratio: {t_ours / t_bare:.2f}  (median of paired rounds {np.median(rounds):.2f}; target <= 3.0)")

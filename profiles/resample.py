@@ -123,6 +123,14 @@ def resample_values(
         Grid distances from ``distance[0]``, values on it, and whether the anti-alias filter
         ran.
     """
+    grid, resampled, lowpassed, _ = _resample_values(distance, values, spacing=spacing,
+                                                     interpolation=interpolation)
+    return grid, resampled, lowpassed
+
+
+def _resample_values(distance, values, *, spacing: float | None, interpolation: str):
+    """:func:`resample_values`, with ``spacing=None`` meaning the median station step (found
+    once, with the steps the checks need anyway); also returns the spacing used."""
     if interpolation not in get_args(Interpolation):
         raise InputError(
             f"interpolation must be one of {', '.join(get_args(Interpolation))} (got {interpolation!r})"
@@ -131,7 +139,7 @@ def resample_values(
     values = np.asarray(values, dtype=float)
     if distance.size < 2:
         raise SpacingError("a segment needs at least two stations to be resampled")
-    if not spacing > 0:
+    if spacing is not None and not spacing > 0:
         raise SpacingError(f"spacing must be positive (got {spacing})")
     steps = np.diff(distance)
     if not (steps > 0).all():
@@ -142,20 +150,48 @@ def resample_values(
             "values must be finite; read the survey with this field requested so "
             "that rows without a value are dropped"
         )
+    median = float(np.median(steps))
+    if spacing is None:
+        spacing = median
     length = distance[-1] - distance[0]
     n = math.floor(length / spacing + 1e-9) + 1
     if n < 2:
         raise SpacingError(f"segment of {length:.1f} m is shorter than one step of {spacing:.1f} m")
-    median = float(np.median(steps))
     q = math.ceil(spacing / median - 1e-9) if spacing > COARSER_THAN_STATIONS * median else 1
     fine = distance[0] + (spacing / q) * np.arange((n - 1) * q + 1)
     interpolated = _interpolate(distance, values, fine, interpolation)
     if q == 1:
-        return fine - distance[0], interpolated, False
+        return fine - distance[0], interpolated, False, spacing
     from scipy.signal import resample_poly
 
     filtered = resample_poly(interpolated, 1, q, padtype="line")[:n]
-    return fine[::q][:n] - distance[0], filtered, True
+    return fine[::q][:n] - distance[0], filtered, True, spacing
+
+
+def wrap_longitude(lon: np.ndarray) -> np.ndarray:
+    """Longitudes (degrees) into [-180, 180): ``(lon + 180) % 360 - 180``, number for number.
+
+    Where every lon + 180 already lies in [0, 360) the remainder changes nothing, and the
+    (slow) floating-point remainder is skipped.
+    """
+    shifted = np.asarray(lon, dtype=float) + 180.0
+    if shifted.size and shifted.min() >= 0.0 and shifted.max() < 360.0:
+        shifted -= 180.0
+        return shifted
+    return shifted % 360.0 - 180.0
+
+
+def _continuous_longitude(lon: np.ndarray) -> np.ndarray:
+    """``numpy.unwrap(lon, period=360)``: longitudes made continuous along the track.
+
+    Where all longitudes lie within 180 degrees of each other no step reaches 180 degrees, and
+    unwrap would change nothing but negative zeros (it returns lon[1:] + 0.0): the longitudes
+    are returned as they are, which the caller's interpolation and :func:`wrap_longitude`
+    turn into the same numbers (-0.0 + 180 is 180).
+    """
+    if lon.size and float(lon.max()) - float(lon.min()) < 180.0:
+        return lon
+    return np.unwrap(lon, period=360.0)
 
 
 def _interpolate(distance, values, grid, interpolation):
@@ -192,13 +228,11 @@ def resample(
         raise InputError(
             f"segment {segment.label} has no field {field!r}; fields: {', '.join(segment.values) or 'none'}"
         )
-    if spacing is None:
-        spacing = float(np.median(segment.spacing))
-    grid, values, lowpassed = resample_values(
+    grid, values, lowpassed, spacing = _resample_values(
         segment.distance, segment.values[field], spacing=spacing, interpolation=interpolation
     )
     where = segment.distance[0] + grid
-    lon = np.interp(where, segment.distance, np.unwrap(segment.lon, period=360.0))
+    lon = np.interp(where, segment.distance, _continuous_longitude(segment.lon))
     lat = np.interp(where, segment.distance, segment.lat)
     return UniformSegment(
         line=segment.line,
@@ -207,7 +241,7 @@ def resample(
         start=float(segment.distance[0]),
         spacing=float(spacing),
         values=values,
-        lon=(lon + 180.0) % 360.0 - 180.0,
+        lon=wrap_longitude(lon),
         lat=lat,
         station_distance=segment.distance,
         interpolation=interpolation,

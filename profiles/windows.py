@@ -2,15 +2,20 @@
 
 Every uniformly resampled segment (:class:`profiles.resample.UniformSegment`) is cut into
 windows of ``window`` metres that start every ``step`` metres; windows never leave their
-segment, so they never cross a gap or a sharp turn. All windows of a segment are analysed
-together: one strided view (``numpy.lib.stride_tricks.sliding_window_view``, the windows are
-never copied), their least-squares slopes from sums over the blocks they share
-(:func:`profiles.spectral.preprocess.window_slopes`), one batched real FFT with the mean and
-line removed in the transform (:func:`profiles.spectral.harmonics.detrended_harmonics`),
-and the significance tests of :mod:`profiles.spectral.significance` on the whole batch
-(the lag-1 coefficient from the variances, :func:`~profiles.spectral.significance.lag1_from_harmonics`;
-the red-noise test at the dominant harmonic only,
-:func:`~profiles.spectral.significance.red_noise_at`). No Python loop runs per window.
+segment, so they never cross a gap or a sharp turn. All windows are analysed together, those
+of every segment given: one strided view (``numpy.lib.stride_tricks.sliding_window_view``,
+the windows are never copied) per window length and step, over one segment's samples or
+over the samples of all segments with that length and step laid end to end; one batched
+real FFT per view with the mean and line removed in the transform and only the per-window
+results kept (:func:`profiles.spectral.harmonics.detrended_harmonics` with
+``keep_power=False``: dominant harmonic, its variance, the sums of Fisher's test, the lag-1
+sum and the rolloff band's variance); the local station spacing of every window in one
+range statistic over the steps of every segment (:mod:`profiles.ranges`); and the
+significance tests of :mod:`profiles.spectral.significance` once over all windows,
+whatever their lengths (the lag-1 coefficient from the variances,
+:func:`~profiles.spectral.significance.lag1_from_harmonics`; the red-noise test at the
+dominant harmonic only, :func:`~profiles.spectral.significance.red_noise_at`). No Python
+loop runs per window.
 
 Per window
 ----------
@@ -61,10 +66,11 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .errors import InputError, SpacingError
-from .resample import UniformSegment
+from .ranges import range_median_and_maximum
+from .resample import UniformSegment, wrap_longitude
 from .spectral.harmonics import detrended_harmonics
-from .spectral.preprocess import Detrend, check_option, check_probability, window_slopes
-from .spectral.significance import fisher_m, fisher_p_value, lag1_from_harmonics, red_noise_at
+from .spectral.preprocess import Detrend, check_option, check_probability
+from .spectral.significance import fisher_p_value, lag1_from_harmonics, red_noise_at
 
 #: Aliasing reasons, in the order they are listed.
 REASONS = ("spacing", "rolloff", "near-nyquist")
@@ -467,42 +473,60 @@ def track_path_vertices(
     kept = np.where(thinned, max(room, 0), inside)
     offsets = np.zeros(which.size + 1, dtype=np.intp)
     np.cumsum(kept + 2, out=offsets[1:])
-    # Every vertex's path and its place in the path, then its fractional sample position.
-    path = np.repeat(np.arange(which.size), kept + 2)
-    place = np.arange(offsets[-1]) - offsets[path]
-    where = (first[path] + place - 1).astype(float)  # the samples first, first + 1, ...
+    heads, tails = offsets[:-1], offsets[1:] - 1  # every path's two ends
+    lon = np.concatenate([tracks[i].lon for i in used.tolist()])
+    lat = np.concatenate([tracks[i].lat for i in used.tolist()])
+    shift = base[slot]
+    # Every vertex's sample in the tracks laid end to end: first, first + 1, ... along its path
+    # (the samples inside[linspace(0, inside.size - 1, room).round()] of a thinned path); the
+    # two ends are interpolated apart.
+    place = np.arange(offsets[-1]) - np.repeat(heads + 1, kept + 2)
     rows = np.flatnonzero(thinned)
-    if rows.size and room > 0:  # as inside[linspace(0, inside.size - 1, room).round()]
-        grid = np.linspace(0.0, (inside[rows] - 1).astype(float), room, axis=1).round().astype(np.intp)
-        cells = offsets[rows][:, None] + 1 + np.arange(room)
-        where[cells] = (first[rows][:, None] + grid).astype(float)
-    where[offsets[:-1]] = lower
-    where[offsets[1:] - 1] = upper
-    # _at on the tracks laid end to end: positions clamped per track, then shifted to it.
-    size = n[path]
-    position = np.clip(where, 0.0, size - 1.0)
+    if rows.size and room > 0:
+        counts, group = np.unique(inside[rows], return_inverse=True)  # one grid per count
+        grid = np.linspace(0.0, (counts - 1).astype(float), room, axis=1).round().astype(np.intp)
+        cells = np.repeat(thinned, kept + 2)
+        cells[heads] = cells[tails] = False
+        place[cells] = grid[group].ravel()
+    sample = place + np.repeat(shift + first, kept + 2)
+    sample[heads] = sample[tails] = 0
+    # _at at every whole sample position of the tracks used (each sample's value as _at gives
+    # it), taken for the vertices inside, and _at at the two ends of every path.
+    track_base = np.repeat(base, sizes)
+    sample_lon, sample_lat = _at_laid_end_to_end(
+        lon, lat, (np.arange(lon.size) - track_base).astype(float), np.repeat(sizes, sizes), track_base
+    )
+    path_lon, path_lat = sample_lon[sample], sample_lat[sample]
+    end_lon, end_lat = _at_laid_end_to_end(
+        lon, lat, np.concatenate([lower, upper]), np.concatenate([n, n]), np.concatenate([shift, shift])
+    )
+    path_lon[heads], path_lon[tails] = end_lon[: which.size], end_lon[which.size :]
+    path_lat[heads], path_lat[tails] = end_lat[: which.size], end_lat[which.size :]
+    # numpy.unwrap per path: unchanged (p[1:] + 0.0) unless a step reaches 180 degrees.
+    jump = ~(np.abs(np.diff(path_lon)) < 180.0)
+    jump[offsets[1:-1] - 1] = False  # steps between paths do not count
+    head_lon = path_lon[heads]
+    path_lon += 0.0  # as p[1:] + 0.0 in numpy.unwrap (no negative zeros), the first kept
+    path_lon[heads] = head_lon
+    crossing = np.searchsorted(offsets, np.flatnonzero(jump) + 1, side="right") - 1
+    for i in np.unique(crossing).tolist():
+        here = slice(offsets[i], offsets[i + 1])
+        path_lon[here] = np.unwrap(path_lon[here], period=360.0)
+    return np.column_stack([path_lon, path_lat]), offsets
+
+
+def _at_laid_end_to_end(lon, lat, position, size, shift):
+    """:func:`_at` of longitudes (the short way round) and latitudes on tracks laid end to end:
+    ``position`` within a track of ``size`` samples whose first sample is at ``shift``."""
+    position = np.clip(position, 0.0, size - 1.0)
     left = np.minimum(np.floor(position).astype(np.intp), np.maximum(size - 2, 0))
     right = np.minimum(left + 1, size - 1)
     weight = position - left
-    shift = base[slot][path]
-    lon = np.concatenate([tracks[i].lon for i in used.tolist()])
-    lat = np.concatenate([tracks[i].lat for i in used.tolist()])
     left += shift
     right += shift
     step = lon[right] - lon[left]
     step = (step + 180.0) % 360.0 - 180.0
-    path_lon = lon[left] + weight * step
-    path_lat = lat[left] + weight * (lat[right] - lat[left])
-    # numpy.unwrap per path: unchanged (p[1:] + 0.0) unless a step reaches 180 degrees.
-    jump = ~(np.abs(np.diff(path_lon)) < 180.0)
-    jump[offsets[1:-1] - 1] = False  # steps between paths do not count
-    heads = path_lon[offsets[:-1]]
-    path_lon += 0.0  # as p[1:] + 0.0 in numpy.unwrap (no negative zeros), the first kept
-    path_lon[offsets[:-1]] = heads
-    for i in np.unique(path[1:][jump]).tolist():
-        here = slice(offsets[i], offsets[i + 1])
-        path_lon[here] = np.unwrap(path_lon[here], period=360.0)
-    return np.column_stack([path_lon, path_lat]), offsets
+    return lon[left] + weight * step, lat[left] + weight * (lat[right] - lat[left])
 
 
 def _at(values: np.ndarray, position: np.ndarray, *, period: float | None = None) -> np.ndarray:
@@ -599,7 +623,7 @@ def along_track_windows(
         detrend=str(detrend),
         window_default=default,
     )
-    parts, warnings, too_coarse = [], [], []
+    plans, warnings, too_coarse = [], [], []
     for index, track in enumerate(tracks):
         n = round(settings.window / track.spacing)
         if n < MIN_WINDOW_SAMPLES:
@@ -615,12 +639,11 @@ def along_track_windows(
                 f"than the {settings.window / 1e3:g} km window; no window there"
             )
             continue
-        stride = max(1, round(settings.step / track.spacing))
-        parts.append(_segment_windows(track, index, n=n, stride=stride, settings=settings))
+        plans.append(_Plan(index, track, n, max(1, round(settings.step / track.spacing))))
     if len(too_coarse) == len(tracks):
         raise SpacingError(too_coarse[0])
     warnings.extend(f"{message}; no window there" for message in too_coarse)
-    table = _assemble(parts, settings, tracks)
+    table = _windows(plans, settings, tracks)
     if shortest_wavelength is None:
         warnings.append(
             "no shortest wavelength given: the 'spacing' reason was not checked; "
@@ -642,270 +665,230 @@ def along_track_windows(
     return replace(table, warnings=tuple(warnings))
 
 
-# --- one segment, all windows at once ------------------------------------------------------------
+# --- all windows of all segments at once --------------------------------------------------------
 
 
-def _segment_windows(track: UniformSegment, index: int, *, n: int, stride: int, settings: WindowSettings):
-    """Every window of one segment, as a dict of equal-length arrays (private)."""
+@dataclass(frozen=True)
+class _Plan:
+    """A segment that gets windows: its place in ``tracks``, window length n and step (samples)."""
+
+    index: int
+    track: UniformSegment
+    n: int
+    stride: int
+
+    @property
+    def count(self) -> int:
+        """Windows on the segment."""
+        return (self.track.n - self.n) // self.stride + 1
+
+    @property
+    def offset(self) -> int:
+        """First sample of the first window: the stretch left over is split between both ends."""
+        return (self.track.n - self.n - (self.count - 1) * self.stride) // 2
+
+
+def _windows(plans: list[_Plan], settings: WindowSettings, tracks) -> WindowTable:
+    """Every window of the planned segments, in segment order (private).
+
+    Per-window quantities are computed on all windows at once: the local station steps in one
+    range statistic over the steps of every segment, the spectra in one batched transform per
+    window length and step (:func:`_spectra`), positions and reasons as whole arrays.
+    """
+    if not plans:
+        return WindowTable(**{name: np.zeros(0, kind) for name, kind in _ARRAYS}, settings=settings,
+                           tracks=tracks)
+    counts = np.array([plan.count for plan in plans])
+    owner = np.repeat(np.arange(len(plans)), counts)  # the plan of every window
+    begin = np.zeros(len(plans), dtype=np.int64)  # the first window of every plan
+    np.cumsum(counts[:-1], out=begin[1:])
+
+    def per_plan(values, kind=None):
+        return np.asarray(values, dtype=kind)[owner]
+
+    n = per_plan([plan.n for plan in plans], np.int64)
+    dx = per_plan([plan.track.spacing for plan in plans], float)
+    first = (per_plan([plan.offset for plan in plans], np.int64)
+             + per_plan([plan.stride for plan in plans], np.int64) * (np.arange(owner.size) - begin[owner]))
+    start = per_plan([plan.track.start for plan in plans], float) + first * dx
+    end = start + (n - 1) * dx
+    median_step, max_step = _step_statistics(plans, start, end, begin)
+    nyquist = 2.0 * median_step
+    spectra = _spectra(plans, settings, begin, n=n, dx=dx, local_nyquist=nyquist)
+    dominant = spectra["dominant_harmonic"]
+    wavelength = n * dx / dominant
+    centre_index = first + 0.5 * (n - 1)
+    if len(plans) == 1:
+        lon_samples, lat_samples = plans[0].track.lon, plans[0].track.lat
+    else:  # the tracks laid end to end; no window reaches past its own track's last sample
+        lon_samples = np.concatenate([plan.track.lon for plan in plans])
+        lat_samples = np.concatenate([plan.track.lat for plan in plans])
+        bases = np.zeros(len(plans), dtype=np.int64)
+        np.cumsum([plan.track.n for plan in plans[:-1]], out=bases[1:])
+        centre_index = centre_index + bases[owner]
+    lon = _at(lon_samples, centre_index, period=360.0)
+    lat = _at(lat_samples, centre_index)
+    target = settings.shortest_wavelength
+    columns = {
+        "line": per_plan([plan.track.line for plan in plans], object),
+        "segment": per_plan([plan.track.number for plan in plans], np.int64),
+        "track": per_plan([plan.index for plan in plans], np.int64),
+        "first_sample": first,
+        "n_samples": n,
+        "spacing": dx,
+        "start": start,
+        "end": end,
+        "center": 0.5 * (start + end),
+        "lon": wrap_longitude(lon),
+        "lat": lat,
+        "dominant_wavelength": wavelength,
+        "local_spacing": median_step,
+        "local_spacing_max": max_step,
+        "local_nyquist": nyquist,
+        "spacing_risk": (max_step > 0.5 * target) if target is not None else np.zeros(owner.size, bool),
+        "rolloff_risk": spectra["rolloff_share"] > settings.rolloff_share,
+        "near_nyquist_risk": wavelength < settings.near_nyquist_factor * nyquist,
+        **spectra,
+    }
+    return WindowTable(**{name: columns[name].astype(kind, copy=False) for name, kind in _ARRAYS},
+                       settings=settings, tracks=tracks)
+
+
+def _spectra(plans: list[_Plan], settings: WindowSettings, begin: np.ndarray, *, n: np.ndarray,
+             dx: np.ndarray, local_nyquist: np.ndarray) -> dict:
+    """Dominant harmonic, variance fraction, Fisher's p-value, lag-1 coefficient, red-noise
+    verdict and rolloff share of every window (private).
+
+    Segments with the same window length and step are transformed in one batch: their
+    samples are laid end to end in one buffer, each segment's first window at a multiple of
+    the step, so that the windows of all of them are one strided view
+    (:func:`_laid_end_to_end`); the few windows that straddle two segments are transformed
+    too and dropped. One segment is read in place. The tests then run once on all windows,
+    whatever their lengths.
+    """
     from numpy.lib.stride_tricks import sliding_window_view
 
-    count = (track.n - n) // stride + 1
-    offset = (track.n - n - (count - 1) * stride) // 2
-    first = offset + stride * np.arange(count)
-    # A strided view: the windows are never copied. The mean and line of every window are
-    # removed inside its transform, and the lag-1 coefficient comes from the variances.
-    frames = sliding_window_view(track.values, n)[offset :: stride][:count]
-    slope = None
-    if settings.detrend == "linear":  # from sums over blocks the overlapping windows share
-        slope = window_slopes(track.values[offset:], length=n, step=stride)[:count]
-    harmonics = detrended_harmonics(frames, detrend=settings.detrend, slope=slope, peak_from=2)
-    variance = harmonics.variance
-    dx = track.spacing
-    m = fisher_m(n)
-    dominant = harmonics.peak_harmonic
-    peak = variance[np.arange(count), dominant]
-    total = harmonics.total_variance
-    tested = total - variance[:, -1] if n % 2 == 0 else total  # Fisher's m leaves out Nyquist
-    lag1 = lag1_from_harmonics(harmonics, estimator="corrected")
+    size = local_nyquist.size
+    dominant = np.empty(size, dtype=np.int64)
+    peak, total, tested, lag1, share = (np.empty(size) for _ in range(5))
+    groups: dict[tuple[int, int], list[int]] = {}
+    for number, plan in enumerate(plans):
+        groups.setdefault((plan.n, plan.stride), []).append(number)
+    for (length, stride), members in groups.items():
+        values, frames, rows = _laid_end_to_end([plans[i] for i in members], begin[members], n=length,
+                                                stride=stride)
+        windows = sliding_window_view(values, length)[::stride][:frames]
+        kept = np.flatnonzero(rows >= 0)  # leave out the windows that straddle two segments
+        rows = rows[kept]
+        first, last = np.ones(frames, dtype=np.int64), np.zeros(frames, dtype=np.int64)  # no band
+        first[kept], last[kept] = _rolloff_band(length, dx[rows], local_nyquist[rows])
+        # Only the per-window results: the variances of every harmonic are never written out.
+        harmonics = detrended_harmonics(windows, detrend=settings.detrend, peak_from=2, band=(first, last),
+                                        keep_power=False)
+        dominant[rows] = harmonics.peak_harmonic[kept]
+        peak[rows] = harmonics.peak_variance[kept]
+        total[rows] = harmonics.total_variance[kept]
+        tested[rows] = harmonics.tested_variance[kept]
+        lag1[rows] = lag1_from_harmonics(harmonics, estimator="corrected")[kept]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share[rows] = np.where(total[rows] > 0, harmonics.band_variance[kept] / total[rows], 0.0)
     flat = total > 0
     with np.errstate(invalid="ignore", divide="ignore"):
         fraction = np.where(flat, peak / np.where(flat, total, 1.0), np.nan)
         g = np.where(tested > 0, peak / np.where(tested > 0, tested, 1.0), 0.0)
-    p_value = np.where(flat, fisher_p_value(np.clip(g, 0.0, 1.0), m=m), np.nan)
-    significant = red_noise_at(peak, harmonic=dominant, total=total, lag1=lag1, n=n,
-                               alpha=settings.alpha) & flat
-
-    start = track.start + first * dx
-    end = start + (n - 1) * dx
-    centre_index = first + 0.5 * (n - 1)
-    lon = _at(track.lon, centre_index, period=360.0)
-    lat = _at(track.lat, centre_index)
-    median_step, max_step = _local_steps(track.station_distance, start, end)
-    nyquist = 2.0 * median_step
-    share = _rolloff_share(variance, total, n=n, spacing=dx, local_nyquist=nyquist)
-    wavelength = n * dx / dominant
-    target = settings.shortest_wavelength
     return {
-        "line": np.full(count, track.line, dtype=object),
-        "segment": np.full(count, track.number, dtype=np.int64),
-        "track": np.full(count, index, dtype=np.int64),
-        "first_sample": first.astype(np.int64),
-        "n_samples": np.full(count, n, dtype=np.int64),
-        "spacing": np.full(count, dx),
-        "start": start,
-        "end": end,
-        "center": 0.5 * (start + end),
-        "lon": (lon + 180.0) % 360.0 - 180.0,
-        "lat": lat,
-        "dominant_harmonic": dominant.astype(np.int64),
-        "dominant_wavelength": wavelength,
+        "dominant_harmonic": dominant,
         "variance_fraction": fraction,
-        "fisher_p_value": p_value,
+        # m = fisher_m(n) of every window
+        "fisher_p_value": np.where(flat, fisher_p_value(np.clip(g, 0.0, 1.0), m=(n - 1) // 2), np.nan),
         "lag1": lag1,
-        "red_noise_significant": significant,
-        "local_spacing": median_step,
-        "local_spacing_max": max_step,
-        "local_nyquist": nyquist,
+        "red_noise_significant": red_noise_at(peak, harmonic=dominant, total=total, lag1=lag1, n=n,
+                                              alpha=settings.alpha) & flat,
         "rolloff_share": share,
-        "spacing_risk": (max_step > 0.5 * target) if target is not None else np.zeros(count, bool),
-        "rolloff_risk": share > settings.rolloff_share,
-        "near_nyquist_risk": wavelength < settings.near_nyquist_factor * nyquist,
     }
 
 
-def _local_steps(station_distance: np.ndarray, start: np.ndarray, end: np.ndarray):
-    """Median and maximum of the station steps overlapping each stretch [start, end] (m).
+def _laid_end_to_end(plans: list[_Plan], begin: np.ndarray, *, n: int, stride: int):
+    """The samples of segments with the same window length n and step, in one buffer whose
+    windows (every ``stride`` samples from 0) are all of theirs (private).
+
+    Returns ``(values, frames, rows)``: the buffer, its number of windows, and for each of them
+    its row in the window table (-1 for a window that straddles two segments). Segment s's
+    first window is at sample ``place_s`` of the buffer, a multiple of the step, and the next
+    segment starts at the first multiple of the step at or after the end of s's last window;
+    the samples between them are a copy of s's last sample.
+    """
+    if len(plans) == 1:  # read in place
+        plan = plans[0]
+        stop = plan.offset + (plan.count - 1) * stride + n
+        return plan.track.values[plan.offset : stop], plan.count, np.arange(begin[0], begin[0] + plan.count)
+    counts = np.array([plan.count for plan in plans])
+    gap = -(-(n - stride) // stride)  # straddling windows between two segments
+    frames_before = np.zeros(len(plans), dtype=np.int64)
+    np.cumsum(counts[:-1] + gap, out=frames_before[1:])
+    frames = int(frames_before[-1] + counts[-1])
+    values = np.empty((frames - 1) * stride + n)
+    rows = np.full(frames, -1, dtype=np.int64)
+    for plan, place, row in zip(plans, (frames_before * stride).tolist(), begin.tolist(), strict=True):
+        length = (plan.count - 1) * stride + n
+        values[place : place + length] = plan.track.values[plan.offset : plan.offset + length]
+        values[place + length : place + length + gap * stride] = values[place + length - 1]
+        rows[place // stride : place // stride + plan.count] = np.arange(row, row + plan.count)
+    return values, frames, rows
+
+
+def _step_statistics(plans: list[_Plan], start: np.ndarray, end: np.ndarray, begin: np.ndarray):
+    """Median and maximum of the original station steps overlapping each window [start, end] (m).
 
     Step j (from station j to j + 1) overlaps when it ends after ``start`` and begins before
-    ``end``.
+    ``end``. The steps of all segments are laid end to end (the step between two segments is
+    in no window) and both statistics taken over all windows at once (:mod:`profiles.ranges`);
+    ``begin``: the first window of each segment.
     """
-    steps = np.diff(np.asarray(station_distance, dtype=float))
-    lo = np.clip(np.searchsorted(station_distance, start, side="right") - 1, 0, steps.size - 1)
-    hi = np.clip(np.searchsorted(station_distance, end, side="left"), lo + 1, steps.size)
-    return _range_median(steps, lo, hi), _range_reduce(np.maximum, steps, lo, hi)
+    if len(plans) == 1:
+        distance = np.asarray(plans[0].track.station_distance, dtype=float)
+        return _local_steps(distance, start, end)
+    distance = np.concatenate([plan.track.station_distance for plan in plans]).astype(float, copy=False)
+    steps = np.diff(distance)
+    lo = np.empty(start.size, dtype=np.int64)
+    hi = np.empty(start.size, dtype=np.int64)
+    base = 0
+    for plan, first in zip(plans, begin.tolist(), strict=True):
+        mine = slice(first, first + plan.count)
+        own = np.asarray(plan.track.station_distance, dtype=float)
+        lo[mine], hi[mine] = _overlapping_steps(own, start[mine], end[mine])
+        lo[mine] += base
+        hi[mine] += base
+        base += own.size
+    return range_median_and_maximum(steps, lo, hi)
 
 
-def _range_reduce(ufunc: np.ufunc, values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """``ufunc.reduce(values[lo_i:hi_i])`` for every i (lo_i < hi_i), each value read once.
-
-    As in :func:`_range_count`, the distinct ends of all ranges cut ``values`` into pieces
-    that no range end falls inside; one ``reduceat`` reduces every piece, and each range is
-    then the reduction of its run of pieces (:func:`_reduce_runs`), a few per range however
-    much the ranges overlap. For an exact reduction such as ``maximum`` the result is the
-    same number as reducing the range directly.
-    """
-    ends = np.unique(np.concatenate([lo, hi]))
-    starts = ends[ends < values.size]
-    pieces = ufunc.reduceat(values, starts)
-    return _reduce_runs(ufunc, pieces, np.searchsorted(starts, lo), np.searchsorted(starts, hi))
+def _overlapping_steps(station_distance: np.ndarray, start: np.ndarray, end: np.ndarray):
+    """First and past-the-last step overlapping each stretch [start, end] (at least one step)."""
+    last = station_distance.size - 2
+    lo = np.clip(np.searchsorted(station_distance, start, side="right") - 1, 0, last)
+    hi = np.clip(np.searchsorted(station_distance, end, side="left"), lo + 1, last + 1)
+    return lo, hi
 
 
-def _reduce_runs(ufunc: np.ufunc, values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """``ufunc.reduce(values[lo_i:hi_i])`` for every i (lo_i < hi_i), in one ``reduceat``.
-
-    The bounds are interleaved, so the even results are the ranges wanted. A range that
-    ends at the end of ``values`` is cut one short (``reduceat`` needs indices inside the
-    array) and its last value put back afterwards.
-    """
-    size = values.size
-    at_end = hi >= size
-    bounds = np.column_stack([lo, np.minimum(hi, size - 1)]).ravel()
-    result = ufunc.reduceat(values, bounds)[::2]
-    # reduceat gives values[lo] alone where lo == size - 1: already complete.
-    put_back = at_end & (lo < size - 1)
-    result[put_back] = ufunc(result[put_back], values[size - 1])
-    return result
+def _local_steps(station_distance: np.ndarray, start: np.ndarray, end: np.ndarray):
+    """Median and maximum of the steps of one segment's stations overlapping each stretch
+    [start, end] (m); see :func:`_step_statistics`."""
+    station_distance = np.asarray(station_distance, dtype=float)
+    steps = np.diff(station_distance)
+    lo, hi = _overlapping_steps(station_distance, start, end)
+    return range_median_and_maximum(steps, lo, hi)
 
 
-def _range_count(flags: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Number of true ``flags[lo_i:hi_i]`` for every i, each flag read once.
-
-    ``flags`` may have more axes (one count per column then, shape (lo.size, ...)). The
-    distinct ends of all ranges cut ``flags`` into pieces that no range end falls inside; one
-    ``add.reduceat`` counts every piece, and a running total over the pieces gives each
-    range's count as the difference of two totals (integers: exact).
-    """
-    ends = np.sort(np.concatenate([lo, hi]))
-    starts = ends[np.concatenate([[True], ends[1:] != ends[:-1]]) & (ends < flags.shape[0])]
-    totals = np.zeros((starts.size + 1, *flags.shape[1:]), dtype=np.int64)
-    np.cumsum(np.add.reduceat(flags.view(np.uint8), starts, axis=0, dtype=np.int32), axis=0, out=totals[1:])
-    # A range end equal to flags.shape[0] finds the last total (up to the end).
-    return totals[np.searchsorted(starts, hi)] - totals[np.searchsorted(starts, lo)]
-
-
-#: Largest matrix (cells) :func:`_range_select` builds at once; more rows are done in blocks.
-_MEDIAN_CELLS = 1 << 23
-
-
-def _range_select(values: np.ndarray, lo: np.ndarray, hi: np.ndarray, rank: np.ndarray,
-                  *, following: bool = False):
-    """The ``rank_i``-th smallest (from 0) of ``values[lo_i:hi_i]`` for every i, no loop.
-
-    Each range is copied into a row of one matrix, shifted so that the value wanted has the
-    same column in every row: cells before a range hold -inf, cells after it +inf. One
-    ``partition`` at that column then gives every value wanted, and with ``following`` also
-    the next larger one (the smallest right of that column; +inf if the range has no more).
-    Above ``_MEDIAN_CELLS`` cells the rows are split into two blocks (recursively), each
-    with its own width.
-    """
-    from numpy.lib.stride_tricks import sliding_window_view
-
-    if lo.size == 0:
-        return (np.zeros(0), np.zeros(0)) if following else np.zeros(0)
-    count = hi - lo
-    column = int(rank.max())
-    lead = column - rank  # -inf cells before each range
-    stop = lead + count  # +inf cells from here
-    width = int(stop.max()) + 1
-    if count.size > 1 and count.size * width > _MEDIAN_CELLS:
-        half = count.size // 2
-        parts = (_range_select(values, lo[:half], hi[:half], rank[:half], following=following),
-                 _range_select(values, lo[half:], hi[half:], rank[half:], following=following))
-        if following:
-            return tuple(np.concatenate(pair) for pair in zip(*parts, strict=True))
-        return np.concatenate(parts)
-    first = lo - lead
-    cells = np.arange(width)
-    if first.min() >= 0 and first.max() + width <= values.size:
-        matrix = sliding_window_view(values, width)[first]
-    else:  # rows that reach past either end read clipped indices there (cells masked below)
-        matrix = np.take(values, first[:, None] + cells, mode="clip")
-    head = int(lead.max())
-    if head:
-        matrix[:, :head][cells[:head] < lead[:, None]] = -np.inf
-    tail = int(stop.min())
-    matrix[:, tail:][cells[tail:] >= stop[:, None]] = np.inf
-    matrix.partition(column, axis=1)
-    if following:
-        return matrix[:, column].copy(), matrix[:, column + 1 :].min(axis=1)
-    return matrix[:, column].copy()
-
-
-#: Ranges sampled to place the band of :func:`_range_median`.
-_BAND_SAMPLES = 32
-#: Groups of ranges (by the rank wanted) for one selection each in :func:`_range_median`.
-_RANK_GROUPS = 8
-
-
-def _range_median(values: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Median of ``values[lo_i:hi_i]`` for every i (lo_i < hi_i), exactly.
-
-    Ranges of overlapping windows share most of their values, and copying every range whole
-    (to partition it) touches each value several times. Along a track the middle values of
-    neighbouring windows differ little, so:
-
-    1. a band [low, high] of values is placed from a sample of the ranges: the lowest and
-       highest of their values a few ranks either side of their middle, found exactly;
-    2. the positions of the values inside the band are listed in position order, so that
-       a range's values inside the band are a contiguous stretch of that list; its count
-       below the band comes from :func:`_range_count`;
-    3. where both middle values of a range lie inside the band (its rank minus the count
-       below the band falls inside its stretch), :func:`_range_select` finds them in the
-       stretch, a few times shorter than the range; the few ranges whose middle falls
-       outside the band get the whole-range selection.
-
-    The median of an even count is the mean of the two middle values, as ``numpy.median``
-    gives it.
-    """
-    if lo.size == 0:
-        return np.zeros(0)
-    count = hi - lo
-    rank = (count - 1) // 2  # the lower middle value; the upper one is rank + 1 when even
-    even = (count % 2 == 0).astype(np.int64)
-    sample = np.unique(np.linspace(0, lo.size - 1, min(lo.size, _BAND_SAMPLES)).astype(np.int64))
-    margin = np.maximum(2, count[sample] // 32)
-    low = _range_select(values, lo[sample], hi[sample], np.maximum(rank[sample] - margin, 0)).min()
-    high = _range_select(values, lo[sample], hi[sample],
-                         np.minimum(rank[sample] + even[sample] + margin, count[sample] - 1)).max()
-    # Positions of the values in the band; counts of the values below it per range.
-    below = values < low
-    in_band = values <= high
-    in_band &= ~below
-    band = np.flatnonzero(in_band)
-    first, stop = np.searchsorted(band, lo), np.searchsorted(band, hi)
-    local = rank - _range_count(below, lo, hi)  # rank minus the count below
-    inside = (local >= 0) & (local + even < stop - first)
-    lower = np.empty(lo.size)
-    upper = np.empty(lo.size)
-    good = np.flatnonzero(inside)
-    if good.size and high == low:  # equal steps (regular stations): nothing to select
-        lower[good] = upper[good] = low
-    elif good.size:
-        inner = values[band]
-        # Ranges sorted by the rank wanted and selected in groups, so that the alignment
-        # of _range_select wastes few cells.
-        for group in np.array_split(good[np.argsort(local[good], kind="stable")], _RANK_GROUPS):
-            if group.size:
-                lower[group], upper[group] = _range_select(inner, first[group], stop[group],
-                                                           local[group], following=True)
-    bad = np.flatnonzero(~inside)
-    if bad.size:
-        lower[bad], upper[bad] = _range_select(values, lo[bad], hi[bad], rank[bad], following=True)
-    return np.where(even == 1, 0.5 * (lower + upper), lower)
-
-
-def _rolloff_share(variance: np.ndarray, total: np.ndarray, *, n: int, spacing: float, local_nyquist):
-    """Share of the variance in (1 - ROLLOFF_BAND) k_top < k <= k_top, k_top the lower of the
-    local Nyquist wavenumber 1/local_nyquist and the grid's Nyquist wavenumber 1/(2 dx)."""
-    count, width = variance.shape
+def _rolloff_band(n: int, spacing: np.ndarray, local_nyquist: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """First and last harmonic of the band (1 - ROLLOFF_BAND) k_top < k <= k_top of windows of
+    n samples at ``spacing``, k_top the lower of the local Nyquist wavenumber 1/local_nyquist
+    and the grid's Nyquist wavenumber 1/(2 dx), in harmonics (empty: first > last)."""
     with np.errstate(divide="ignore"):
         top = np.minimum(n * spacing / local_nyquist, 0.5 * n)  # in harmonics
-    high = np.minimum(np.floor(top + 1e-9).astype(np.int64), width - 1)
+    high = np.minimum(np.floor(top + 1e-9).astype(np.int64), n // 2)
     low = np.floor((1.0 - ROLLOFF_BAND) * top + 1e-9).astype(np.int64)
-    some = high > low
-    band = np.zeros(count)
-    if some.all() and np.ptp(low) == 0 and np.ptp(high) == 0:  # one band for every window
-        band = variance[:, low[0] + 1 : high[0] + 1].sum(axis=1)
-    elif some.any():
-        # Only the columns some band reaches, copied once, so that the sums (one reduceat,
-        # the same additions in the same order) do not read the rest of every row.
-        rows = np.flatnonzero(some)
-        left, right = int(low[rows].min()) + 1, int(high[rows].max()) + 1
-        part = variance[rows, left:right]
-        base = np.arange(rows.size) * (right - left) - left
-        band[rows] = _reduce_runs(np.add, part.reshape(-1), base + low[rows] + 1, base + high[rows] + 1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(total > 0, band / np.where(total > 0, total, 1.0), 0.0)
+    return low + 1, high
 
 
 # --- assembling ----------------------------------------------------------------------------------
@@ -936,13 +919,3 @@ _ARRAYS = (
     ("rolloff_risk", bool),
     ("near_nyquist_risk", bool),
 )
-
-
-def _assemble(parts: list[dict], settings: WindowSettings, tracks) -> WindowTable:
-    columns = {
-        name: (np.concatenate([p[name] for p in parts]).astype(kind) if parts else np.zeros(0, kind))
-        for name, kind in _ARRAYS
-    }
-    return WindowTable(**columns, settings=settings, tracks=tracks)
-
-

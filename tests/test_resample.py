@@ -98,3 +98,35 @@ def test_bad_calls_are_refused():
         resample_values(np.array([0.0, 1.0, 2.0]), np.array([0.0, np.nan, 1.0]), spacing=1.0)
     with pytest.raises(InputError):
         resample_values(np.array([0.0, 1.0, 2.0]), np.zeros(3), spacing=1.0, interpolation="spline")
+
+
+@pytest.mark.parametrize(("start", "azimuth"), [((10.0, 5.0), 90), ((179.5, 10.0), 80),
+                                               ((-179.9, -20.0), 270), ((0.2, 0.0), 270)])
+def test_positions_as_numpy_unwrap_gives_them(start, azimuth):
+    # Reference: numpy.interp of numpy.unwrap(lon, period=360) on the station distances, the
+    # definition of the samples' positions; the same numbers, signs of zeros included, whether
+    # or not the line crosses the antimeridian (or longitude 0).
+    lon, lat = walk(start[0], start[1], [(azimuth, 300, 250.0)])
+    survey = Survey.from_arrays(line=np.array(["A"] * lon.size), lon=lon, lat=lat,
+                                values={"f": np.cos(np.arange(lon.size) / 9.0)})
+    (segment,) = build_segments(survey)
+    uniform = resample(segment, "f", spacing=180.0)
+    where = segment.distance[0] + 180.0 * np.arange(uniform.n)
+    expected = np.interp(where, segment.distance, np.unwrap(segment.lon, period=360.0))
+    expected = (expected + 180.0) % 360.0 - 180.0
+    np.testing.assert_array_equal(uniform.lon, expected)
+    np.testing.assert_array_equal(np.signbit(uniform.lon), np.signbit(expected))
+
+
+def test_wrap_longitude_is_the_remainder_formula():
+    # Reference: (lon + 180) % 360 - 180 with numpy's floating remainder, number for number
+    # and sign of zero, inside [-180, 180) and beyond it.
+    from profiles.resample import wrap_longitude
+
+    rng = np.random.default_rng(1)
+    for low, high in ((-180.0, 180.0), (170.0, 190.0), (-500.0, 500.0)):
+        lon = np.concatenate([[low, -0.0, 0.0, 180.0, -180.0], rng.uniform(low, high, 10_000)])
+        expected = (lon + 180.0) % 360.0 - 180.0
+        got = wrap_longitude(lon)
+        np.testing.assert_array_equal(got, expected)
+        np.testing.assert_array_equal(np.signbit(got), np.signbit(expected))

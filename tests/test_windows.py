@@ -21,7 +21,6 @@ import pytest
 from conftest import GEOD, walk
 from scipy.signal import lfilter
 
-import profiles.windows
 from profiles.errors import InputError, SpacingError
 from profiles.geometry import build_segments
 from profiles.resample import UniformSegment, resample
@@ -36,10 +35,6 @@ from profiles.survey import Survey
 from profiles.windows import (
     COLUMNS,
     _at,
-    _range_count,
-    _range_median,
-    _range_reduce,
-    _range_select,
     along_track_windows,
     default_window,
     round_up_length,
@@ -198,13 +193,12 @@ def test_tone_well_below_the_nyquist_raises_nothing():
 # --- batched against a loop over windows --------------------------------------------------
 
 
-def red_noise_track(n_stations=900, seed=3):
+def red_noise_track(n_stations=900, seed=3, spacing=255.0):
     """Irregular stations (200-320 m), AR(1) values (scipy.signal.lfilter) plus a tone."""
     rng = np.random.default_rng(seed)
     station = np.concatenate([[0.0], np.cumsum(rng.uniform(200.0, 320.0, n_stations - 1))])
     station[400:420] = station[400] + np.cumsum(np.r_[0.0, np.full(19, 1500.0)])  # a coarse stretch
     station[420:] = station[419] + np.cumsum(rng.uniform(200.0, 320.0, n_stations - 420)) + 250.0
-    spacing = 255.0
     count = int(station[-1] // spacing) + 1
     values = lfilter([1.0], [1.0, -0.8], rng.standard_normal(count)) * 30.0
     values += 40.0 * np.cos(2 * np.pi * spacing * np.arange(count) / 6000.0) + 4000.0
@@ -215,15 +209,14 @@ def red_noise_track(n_stations=900, seed=3):
     )
 
 
-@pytest.mark.parametrize("n_window", [160, 161])  # even and odd window lengths
-def test_batched_windows_equal_a_loop_over_windows(n_window):
-    track = red_noise_track()
-    table = along_track_windows(track, window=n_window * track.spacing, step=23 * track.spacing,
-                                shortest_wavelength=1500.0, alpha=0.05, rolloff_share=0.02)
-    assert len(table) > 20
-    m = fisher_m(n_window)
-    steps = np.diff(track.station_distance)
+def assert_windows_equal_a_loop(table, tracks, alpha=0.05):
+    """Every window of ``table`` against the loop reference over its own samples."""
+    steps_of = [np.diff(track.station_distance) for track in tracks]
     for i in range(len(table)):
+        track = tracks[int(table.track[i])]
+        steps = steps_of[int(table.track[i])]
+        n_window = int(table.n_samples[i])
+        m = fisher_m(n_window)
         first = int(table.first_sample[i])
         window = track.values[first : first + n_window]
         harmonics = harmonic_table(window, spacing=track.spacing, detrend="linear")
@@ -237,7 +230,7 @@ def test_batched_windows_equal_a_loop_over_windows(n_window):
         assert table.fisher_p_value[i] == pytest.approx(fisher_p_value(g, m=m), rel=1e-12, abs=1e-300)
         lag1 = lag1_autocorrelation(window, detrend="linear", estimator="corrected")
         assert table.lag1[i] == pytest.approx(lag1, rel=1e-12, abs=1e-14)
-        red = red_noise_test(window, spacing=track.spacing, detrend="linear", alpha=0.05)
+        red = red_noise_test(window, spacing=track.spacing, detrend="linear", alpha=alpha)
         assert table.red_noise_significant[i] == red.significant[k]
         # Local spacing: steps overlapping the window's extent, with numpy's median and max.
         low, high = track.start + first * track.spacing, track.start + (first + n_window - 1) * track.spacing
@@ -249,44 +242,42 @@ def test_batched_windows_equal_a_loop_over_windows(n_window):
         top = min(1.0 / (2 * np.median(mine)), wavenumber[-1])
         band = (wavenumber > 0.8 * top * (1 + 1e-12)) & (wavenumber <= top * (1 + 1e-12))
         assert table.rolloff_share[i] == pytest.approx(variance[band].sum() / total, rel=1e-12, abs=1e-15)
+
+
+@pytest.mark.parametrize("n_window", [160, 161])  # even and odd window lengths
+def test_batched_windows_equal_a_loop_over_windows(n_window):
+    track = red_noise_track()
+    table = along_track_windows(track, window=n_window * track.spacing, step=23 * track.spacing,
+                                shortest_wavelength=1500.0, alpha=0.05, rolloff_share=0.02)
+    assert len(table) > 20
+    assert_windows_equal_a_loop(table, [track])
     assert table.spacing_risk.any() and (~table.spacing_risk).any()
     assert table.rolloff_risk.any()
 
 
-@pytest.mark.parametrize("cells", [1 << 23, 500])  # one matrix, and rows split into blocks
-@pytest.mark.parametrize(
-    "kind", ["uniform", "rounded", "constant", "spread", "signed", "gappy"]
-)
-def test_range_statistics_equal_numpy(monkeypatch, cells, kind):
-    # Reference: numpy.median, numpy.max and numpy.sum over each slice. The kinds cover many
-    # ties (steps rounded to 0.1 m, all steps equal), values over many orders of magnitude,
-    # negative values (for the class order) and a few huge steps among regular ones.
-    monkeypatch.setattr(profiles.windows, "_MEDIAN_CELLS", cells)
-    rng = np.random.default_rng(7)
-    values = {
-        "uniform": rng.uniform(100.0, 300.0, 3000),
-        "rounded": np.round(rng.exponential(5.0, 3000), 1) + 0.1,
-        "constant": np.full(3000, 250.0),
-        "spread": np.exp(rng.normal(0.0, 5.0, 3000)),
-        "signed": rng.normal(0.0, 50.0, 3000),
-        "gappy": np.where(rng.random(3000) < 0.01, 20_000.0, rng.uniform(240.0, 260.0, 3000)),
-    }[kind]
-    lo = np.sort(rng.integers(0, 2990, 400))
-    hi = np.minimum(lo + rng.integers(1, 700, 400), values.size)
-    hi[-5:] = values.size  # ranges that run to the end
-    lo[-1] = values.size - 1
-    np.testing.assert_array_equal(_range_median(values, lo, hi),
-                                  [np.median(values[a:b]) for a, b in zip(lo, hi, strict=True)])
-    np.testing.assert_array_equal(_range_reduce(np.maximum, values, lo, hi),
-                                  [np.max(values[a:b]) for a, b in zip(lo, hi, strict=True)])
-    np.testing.assert_allclose(_range_reduce(np.add, values, lo, hi),
-                               [np.sum(values[a:b]) for a, b in zip(lo, hi, strict=True)], rtol=1e-13)
-    np.testing.assert_array_equal(_range_count(values > np.median(values), lo, hi),
-                                  [np.count_nonzero(values[a:b] > np.median(values))
-                                   for a, b in zip(lo, hi, strict=True)])
-    rank = rng.integers(0, hi - lo)
-    np.testing.assert_array_equal(_range_select(values, lo, hi, rank),
-                                  [np.sort(values[a:b])[r] for a, b, r in zip(lo, hi, rank, strict=True)])
+def test_segments_batched_together_equal_a_loop_and_one_call_each():
+    # Segments of one window length and step are transformed in one batch, laid end to end
+    # (the windows straddling two of them dropped); segments of other lengths in batches of
+    # their own; the tests then run on all windows at once. Every window must be what the
+    # loop over its own samples gives, and what a call for its segment alone gives.
+    layout = ((3, 900, 255.0), (4, 700, 255.0), (5, 800, 240.0), (6, 500, 255.0))  # seed, stations, spacing
+    tracks = [replace(red_noise_track(n_stations=stations, seed=seed, spacing=spacing), line=f"R{seed}")
+              for seed, stations, spacing in layout]
+    table = along_track_windows(tracks, window=160 * 255.0, step=23 * 255.0, shortest_wavelength=1500.0,
+                                rolloff_share=0.02)
+    assert set(table.n_samples.tolist()) == {160, 170} and len(set(table.track.tolist())) == 4
+    assert_windows_equal_a_loop(table, tracks)
+    for index, track in enumerate(tracks):
+        alone = along_track_windows(track, window=160 * 255.0, step=23 * 255.0, shortest_wavelength=1500.0,
+                                    rolloff_share=0.02)
+        mine = table.track == index
+        for name in ("first_sample", "dominant_harmonic", "red_noise_significant", "spacing_risk",
+                     "rolloff_risk", "near_nyquist_risk", "start", "end", "lon", "lat", "local_spacing",
+                     "local_spacing_max"):  # the same numbers
+            np.testing.assert_array_equal(getattr(table, name)[mine], getattr(alone, name), err_msg=name)
+        for name in ("variance_fraction", "fisher_p_value", "lag1", "rolloff_share"):  # sums: to rounding
+            np.testing.assert_allclose(getattr(table, name)[mine], getattr(alone, name), rtol=1e-13,
+                                       err_msg=name)
 
 
 # --- segments, gaps and bad input -------------------------------------------------------------

@@ -37,7 +37,6 @@ from .preprocess import (
     Detrend,
     Taper,
     as_values,
-    centred_index,
     check_finite,
     check_option,
     check_spacing,
@@ -58,18 +57,55 @@ __all__ = [
 _MIN_SAMPLES = 3
 
 
-@lru_cache(maxsize=8)
+@lru_cache(maxsize=64)
 def _centred_transform(count: int) -> np.ndarray:
-    """rfft of the centred index c_j = j - (N-1)/2 (cached, read-only).
+    """rfft of the centred index c_j = j - (N-1)/2, in closed form (cached, read-only).
 
-    Entry 0 is sum(c_j) = 0, set exactly so that removing the line never touches k = 0.
+    With w = exp(-2 pi i k/N) and w^N = 1, the geometric series gives
+    sum_j j w^j = N / (w - 1) for k != 0, and the constant (N-1)/2 adds nothing there, so
+
+        rfft(c)_k = -N/2 + i (N/2) cot(pi k/N),   k = 1..N//2,
+
+    and 0 at k = 0 (sum c_j = 0, exactly, so removing the line never touches k = 0); the
+    Nyquist entry of even N is -N/2, real. No transform is needed, which matters in a batch
+    whose segments all differ in length (checked against numpy.fft.rfft in the tests).
     """
-    transform = np.fft.rfft(centred_index(count))
-    transform[0] = 0.0
+    transform = np.zeros(count // 2 + 1, dtype=np.complex128)
+    k = np.arange(1, count // 2 + 1)
+    transform.real[1:] = -0.5 * count
+    transform.imag[1:] = 0.5 * count / np.tan(np.pi * k / count)
+    if count % 2 == 0:
+        transform.imag[-1] = 0.0
     transform.setflags(write=False)
     return transform
 
 
+@lru_cache(maxsize=64)
+def _slope_weights(count: int) -> np.ndarray:
+    """Weights w on the real view (Re, Im, Re, Im, ...) of rfft(y) with w . rfft(y) equal to
+    the least-squares slope per sample of y (cached, read-only).
+
+    Parseval's relation for real series, sum_j c_j y_j = (1/N) sum_k C_k conj(Y_k) over all N
+    harmonics, folded onto k = 0..N//2 (conjugate pairs counted twice, k = 0 and the Nyquist
+    harmonic of even N once), with C = rfft(c) of :func:`_centred_transform` (C_0 = 0, so the
+    mean does not enter), divided by sum_j c_j^2 = N (N^2 - 1) / 12: the slope of
+    :func:`profiles.spectral.preprocess.line_slope`, from the transform instead of a second
+    pass over the samples (as accurate: tested against numpy.polyfit).
+    """
+    transform = _centred_transform(count)
+    fold = np.full(transform.size, 2.0)
+    if count % 2 == 0:
+        fold[-1] = 1.0
+    weights = np.empty(2 * transform.size)
+    weights[0::2] = fold * transform.real
+    weights[1::2] = fold * transform.imag
+    weights /= count * (count * count - 1) / 12.0 * count
+    weights.setflags(write=False)
+    return weights
+
+
+#: Most columns outside the common core of the bands that _band_sums adds one by one.
+_BAND_EDGE_COLUMNS = 48
 # Elements handled per block in the finishing pass: about 2 MB of complex numbers, so that
 # each block stays in cache while it is corrected, squared and scaled; as large as a chunk
 # below, so that a chunk is finished in one block (fewer calls, each on more numbers).
@@ -110,7 +146,7 @@ def _spectrum(
         coefficients = np.fft.rfft(residual, axis=-1)
         power_norm = float(np.mean(weights**2))
     elif not as_coefficients:
-        variances, mean, slope, _ = _untapered_variances(values, detrend)
+        variances, mean, slope = _untapered_variances(values, detrend)
         return None, variances, mean, slope
     else:
         coefficients = np.fft.rfft(values, axis=-1)
@@ -132,58 +168,157 @@ def _untapered_variances(
     detrend: Detrend,
     known: np.ndarray | None = None,
     *,
-    peak_from: int | None = None,
+    sums: _Sums | None = None,
+    scaled: bool = True,
+    keep: bool = True,
 ):
     """Variances, means and slopes of untapered series, transformed a chunk of rows at a time.
 
     The arithmetic of :func:`_spectrum` without a taper (the mean and line removed in the
     transform); only the order of the work differs: each chunk of about ``_CHUNK``
     coefficients is transformed into one reused buffer and finished at once. ``known``:
-    slopes given by the caller (linear detrend), else computed per chunk. With
-    ``peak_from``, the sums of :class:`DetrendedHarmonics` are formed per chunk too and
-    returned as a fourth item (total, circular lag-1 sum, peak harmonic), else None.
+    slopes given by the caller (linear detrend), else computed per chunk. ``sums``: the
+    per-series sums of :class:`DetrendedHarmonics`, formed per chunk while it is in cache.
+    Without ``scaled``, the first item is the power of :func:`_finish` (the variances are it
+    times 2 / (N (N - 1))); without ``keep``, it is None: each chunk is finished in one
+    reused buffer, and nothing as large as the transform is written to memory.
     """
     count = values.shape[-1]
     width = count // 2 + 1
     flat = values.reshape(-1, count)
     rows = flat.shape[0]
-    variances = np.empty((rows, width))
+    chunk = max(1, _CHUNK // width)
+    variances = np.empty((rows, width)) if keep else np.empty((min(chunk, rows), width))
     mean = np.empty(rows)
     slope = np.zeros(rows) if known is None else known.reshape(rows)
-    if peak_from is not None:
-        total, circular, peak = np.empty(rows), np.empty(rows), np.empty(rows, dtype=np.int64)
-        cosine = np.cos(2.0 * np.pi * np.arange(1, width) / count)
-        ones = np.ones(width - 1)
-        top = (count - 1) // 2
-    chunk = max(1, _CHUNK // width)
     buffer = np.empty((min(chunk, rows), width), dtype=np.complex128)
+    # One buffer for the finishing pass of every chunk, of the block that pass works on.
+    scratch = np.empty((min(chunk, rows, max(1, _BLOCK // width)), min(width, _BLOCK)), dtype=np.complex128)
     for start in range(0, rows, chunk):
         part = flat[start : start + chunk]
         if _RFFT_OUT:
             transform = np.fft.rfft(part, axis=-1, out=buffer[: part.shape[0]])
         else:
             transform = np.fft.rfft(part, axis=-1)
-        if not np.all(np.isfinite(transform[:, 0])):
-            check_finite(values)
         here = slice(start, start + part.shape[0])
-        mean[here] = transform[:, 0].real / count
+        np.divide(transform[:, 0].real, count, out=mean[here])
+        if not np.isfinite(mean[here]).all():
+            check_finite(values)
         transform[:, 0] = 0.0
         correction = None
-        if detrend == "linear" and known is None:
-            slope[here] = correction = line_slope(part)
+        if detrend == "linear" and known is None:  # from the transform: no pass over the samples
+            slope[here] = correction = transform.view(np.float64) @ _slope_weights(count)
         elif detrend == "linear":
             correction = slope[here]
-        done = _finish(transform, count, 1.0, correction, None, out=variances[here])
-        if peak_from is not None:
-            above = done[:, 1:]  # the two sums as matrix-vector products (BLAS)
-            np.matmul(above, ones, out=total[here])
-            np.matmul(above, cosine, out=circular[here])
-            np.argmax(done[:, peak_from : top + 1], axis=1, out=peak[here])
+        target = variances[here] if keep else variances[: part.shape[0]]
+        done = _finish(transform, count, 1.0, correction, None, out=target, scaled=scaled, scratch=scratch,
+                       consumed=True)
+        if sums is not None:
+            sums.add(done, here, keep=keep)
     shape = values.shape[:-1]
-    sums = None
-    if peak_from is not None:
-        sums = (total.reshape(shape), circular.reshape(shape), peak.reshape(shape) + peak_from)
-    return variances.reshape(*shape, width), mean.reshape(shape), slope.reshape(shape), sums
+    return (variances.reshape(*shape, width) if keep else None), mean.reshape(shape), slope.reshape(shape)
+
+
+class _Sums:
+    """The per-series sums of :class:`DetrendedHarmonics`, formed chunk by chunk (private).
+
+    In the units of the chunks (power or variances); :meth:`result` scales them. The totals
+    and the circular lag-1 sums are matrix-vector products (BLAS); the band sums are those of
+    :func:`_band_sums`; the peak is an ``argmax`` over whole rows (:func:`_argmax_between`).
+    """
+
+    def __init__(self, rows: int, count: int, *, peak_from: int, band):
+        width = count // 2 + 1
+        self.count, self.peak_from, self.top = count, peak_from, (count - 1) // 2
+        self.cosine = np.cos(2.0 * np.pi * np.arange(1, width) / count)
+        self.ones = np.ones(width - 1)
+        self.total, self.circular, self.tested, self.peak_value = (np.empty(rows) for _ in range(4))
+        self.peak = np.empty(rows, dtype=np.int64)
+        self.band = None if band is None else tuple(np.reshape(edge, rows) for edge in band)
+        self.band_sum = None if band is None else np.zeros(rows)
+        self.columns = self.kept = None
+        if band is not None and np.any(self.band[1] >= self.band[0]):
+            # Where the bands of all series span few columns, those columns are kept chunk by
+            # chunk and summed once at the end (fewer, larger array operations).
+            reach = self.band[1] >= self.band[0]
+            low, high = int(self.band[0][reach].min()), int(self.band[1][reach].max()) + 1
+            if (high - low) * 4 <= width:
+                self.columns = slice(low, high)
+                self.kept = np.empty((rows, high - low))
+
+    def add(self, done: np.ndarray, here: slice, *, keep: bool) -> None:
+        above = done[:, 1:]
+        np.matmul(above, self.ones, out=self.total[here])
+        np.matmul(above, self.cosine, out=self.circular[here])
+        if self.count % 2 == 0:  # Fisher's m leaves out the Nyquist harmonic of even N
+            np.subtract(self.total[here], done[:, -1], out=self.tested[here])
+        else:
+            self.tested[here] = self.total[here]
+        if self.kept is not None:
+            self.kept[here] = done[:, self.columns]
+        elif self.band is not None:
+            self.band_sum[here] = _band_sums(done, self.band[0][here], self.band[1][here])
+        _argmax_between(done, self.peak_from, self.top, out=self.peak[here], restore=keep)
+        self.peak_value[here] = done[np.arange(done.shape[0]), self.peak[here]]
+
+    def result(self, shape: tuple, factor: float) -> dict:
+        """The sums as variances (``factor``: what turns the chunks' units into variances)."""
+        if self.kept is not None:
+            offset = self.columns.start
+            self.band_sum = _band_sums(self.kept, self.band[0] - offset, self.band[1] - offset)
+        sums = {"total_variance": self.total, "circular_lag1": self.circular,
+                "tested_variance": self.tested, "peak_variance": self.peak_value,
+                "band_variance": self.band_sum}
+        scaled = {name: None if value is None else (value * factor).reshape(shape)
+                  for name, value in sums.items()}
+        return {**scaled, "peak_harmonic": self.peak.reshape(shape)}
+
+
+def _band_sums(variances: np.ndarray, first: np.ndarray, last: np.ndarray) -> np.ndarray:
+    """Sum of ``variances[i, first_i : last_i + 1]`` for every row i (0 where last_i < first_i).
+
+    Neighbouring series have nearly the same band, so the sum is taken as the columns every
+    band holds (one slice, summed along the rows) plus, column by column, the few that only
+    some bands reach; bands with no column in common, or many columns not, are summed as
+    their union, masked.
+    """
+    rows = slice(None) if np.all(last >= first) else np.flatnonzero(last >= first)
+    sums = np.zeros(variances.shape[0])
+    if isinstance(rows, np.ndarray) and rows.size == 0:
+        return sums
+    part = variances[rows]
+    first, last = first[rows, np.newaxis], last[rows, np.newaxis]
+    low, high = int(first.min()), int(last.max()) + 1
+    core_first, core_last = int(first.max()), int(last.min()) + 1
+    if core_first < core_last and (core_first - low) + (high - core_last) <= _BAND_EDGE_COLUMNS:
+        total = part[:, core_first:core_last].sum(axis=1)
+        first, last = first[:, 0], last[:, 0]
+        for k in range(low, core_first):  # left of the core: in the bands that start early enough
+            total += np.where(first <= k, part[:, k], 0.0)
+        for k in range(core_last, high):  # right of it: in the bands that end late enough
+            total += np.where(last >= k, part[:, k], 0.0)
+    else:
+        columns = np.arange(low, high)
+        total = np.add.reduce(part[:, low:high], axis=1, where=(columns >= first) & (columns <= last))
+    sums[rows] = total
+    return sums
+
+
+def _argmax_between(variances: np.ndarray, first: int, last: int, *, out: np.ndarray,
+                    restore: bool = True) -> None:
+    """Column of the largest entry among columns first..last of each row (the first such).
+
+    The columns outside are set to -1 (below any variance) while ``argmax`` runs over whole
+    rows, and then put back if ``restore``: ``argmax`` of a column slice would first copy
+    the slice.
+    """
+    outside = (slice(0, first), slice(last + 1, None))
+    saved = [variances[:, columns].copy() for columns in outside] if restore else ()
+    for columns in outside:
+        variances[:, columns] = -1.0
+    np.argmax(variances, axis=1, out=out)
+    for columns, values in zip(outside, saved, strict=False):
+        variances[:, columns] = values
 
 
 def _finish(
@@ -194,18 +329,25 @@ def _finish(
     scale: float | None,
     *,
     out: np.ndarray | None = None,
+    scaled: bool = True,
+    scratch: np.ndarray | None = None,
+    consumed: bool = False,
 ) -> np.ndarray:
     """One blocked pass over the transform: remove the line, form the variances, scale.
 
     Z_k -= slope * rfft(c)_k (if ``slope`` is given), then
     s_k^2 = 2 |Z_k|^2 / (N (N - 1) w2) for 0 < k < N/2 and half that at k = 0 and at
-    k = N/2 (N even), w2 the taper's mean square, then Z_k *= scale (if given). Done in
+    k = N/2 (N even), w2 the taper's mean square, then Z_k *= scale (if given). Without
+    ``scaled``, the power |Z_k|^2 (halved at the same two harmonics) instead of s_k^2: the
+    variances are that times 2 / (N (N - 1) w2), the same numbers (halving is exact). Done in
     blocks of about 2 MB so that every block is read from memory once, with the
-    intermediate products in one buffer made once; |Z|^2 is Re^2 + Im^2, squared on the real
-    view and summed in pairs. The line is removed in place, Z_k of every row of a block less
-    that row's slope times rfft(c)_k: one rank-1 update of the block's real view (BLAS
-    ``dger``, which reads and writes the block once; a real slope times a complex number is
-    two real products), so the transform given holds the corrected coefficients afterwards.
+    intermediate products in one buffer (``scratch`` if large enough, else made once);
+    |Z|^2 is Re^2 + Im^2, squared on the real view and summed in pairs. The line is removed
+    in place, Z_k of every row of a block less that row's slope times rfft(c)_k: one rank-1
+    update of the block's real view (BLAS ``dger``, which reads and writes the block once; a
+    real slope times a complex number is two real products), so the transform given holds
+    the corrected coefficients afterwards, unless ``consumed`` (no ``scale``): then it is
+    overwritten by the squares.
     """
     width = coefficients.shape[-1]
     flat = coefficients.reshape(-1, width)
@@ -216,7 +358,10 @@ def _finish(
     slopes = np.ascontiguousarray(np.reshape(slope, -1), dtype=np.float64) if slope is not None else None
     rows_per_block = max(1, _BLOCK // width)
     columns_per_block = min(width, _BLOCK)
-    buffer = np.empty((min(rows_per_block, flat.shape[0]), columns_per_block), dtype=np.complex128)
+    shape = (min(rows_per_block, flat.shape[0]), columns_per_block)
+    if scratch is None or scratch.shape[0] < shape[0] or scratch.shape[1] < shape[1]:
+        scratch = np.empty(shape, dtype=np.complex128)
+    buffer = scratch
     for row in range(0, flat.shape[0], rows_per_block):
         rows = slice(row, row + rows_per_block)
         for column in range(0, width, _BLOCK):
@@ -228,10 +373,13 @@ def _finish(
                 reach = line[2 * column : 2 * columns.stop]
                 _remove_line(pairs, slopes[rows], reach, scratch.view(np.float64))
             target = out[rows, columns]
-            squares = scratch.view(np.float64)
+            # Squared in place where the coefficients are not wanted afterwards (a smaller
+            # working set), else in the buffer.
+            squares = pairs if consumed and scale is None else scratch.view(np.float64)
             np.square(pairs, out=squares)
             np.add(squares[:, 0::2], squares[:, 1::2], out=target)
-            target *= factor
+            if scaled:
+                target *= factor
             if scale is not None:
                 part *= scale
     variances[..., 0] *= 0.5
@@ -311,8 +459,15 @@ class DetrendedHarmonics:
 
     Attributes
     ----------
+    power : ndarray, shape (..., N//2 + 1), or None
+        |Z_k|^2 of the DFT Z of each detrended series, halved at k = 0 and at the Nyquist
+        harmonic of even N, field units squared: the variances before their common factor.
+        None when not kept (``keep_power=False``).
     variance : ndarray, shape (..., N//2 + 1)
-        s_k^2, field units squared, as :func:`harmonic_variances` without a taper.
+        s_k^2 = power * ``variance_factor``, field units squared, as
+        :func:`harmonic_variances` without a taper (formed on first use, from ``power``).
+    variance_factor : float
+        2 / (N (N - 1)).
     mean : ndarray, shape (...)
         Mean of every series, field units.
     slope : ndarray, shape (...)
@@ -329,6 +484,13 @@ class DetrendedHarmonics:
     peak_harmonic : ndarray of int, shape (...)
         The harmonic with the largest variance among k = ``peak_from``..floor((N - 1)/2)
         (the Nyquist harmonic of even N left out, as in Fisher's test).
+    peak_variance : ndarray, shape (...)
+        Its variance.
+    tested_variance : ndarray, shape (...)
+        sum_{k=1}^{m} s_k^2, m = floor((N - 1)/2): the denominator of Fisher's g (the
+        Nyquist harmonic of even N left out).
+    band_variance : ndarray, shape (...), or None
+        sum of s_k^2 over the band of harmonics asked for each series (``band``), else None.
     peak_from : int
         Lowest harmonic of that search.
     n : int
@@ -337,7 +499,7 @@ class DetrendedHarmonics:
         ``"linear"`` or ``"mean"``.
     """
 
-    variance: np.ndarray = field(repr=False)
+    power: np.ndarray | None = field(repr=False)
     mean: np.ndarray = field(repr=False)
     slope: np.ndarray = field(repr=False)
     first: np.ndarray = field(repr=False)
@@ -345,9 +507,24 @@ class DetrendedHarmonics:
     total_variance: np.ndarray = field(repr=False)
     circular_lag1: np.ndarray = field(repr=False)
     peak_harmonic: np.ndarray = field(repr=False)
+    peak_variance: np.ndarray = field(repr=False)
+    tested_variance: np.ndarray = field(repr=False)
+    band_variance: np.ndarray | None = field(repr=False)
     peak_from: int
     n: int
     detrend: str
+
+    @property
+    def variance_factor(self) -> float:
+        """2 / (N (N - 1)): s_k^2 = power_k times this."""
+        return 2.0 / (self.n * (self.n - 1))
+
+    @cached_property
+    def variance(self) -> np.ndarray:
+        """s_k^2, field units squared (power times ``variance_factor``)."""
+        if self.power is None:
+            raise InputError("the harmonics' power was not kept (keep_power=False): no variances")
+        return self.power * self.variance_factor
 
     def to_frame(self):
         """One row per series: ``mean``, ``slope_per_sample``, ``first``, ``last``,
@@ -368,16 +545,22 @@ class DetrendedHarmonics:
         )
 
     def __str__(self) -> str:
-        count = int(np.prod(self.variance.shape[:-1]))
+        count = int(np.size(self.total_variance))
         return (
             f"Harmonic variances of {count} series of {self.n} samples (detrend {self.detrend}), "
-            f"{self.variance.shape[-1]} harmonics each; median total variance "
+            f"{self.n // 2 + 1} harmonics each; median total variance "
             f"{float(np.median(self.total_variance)):.6g}"
         )
 
 
 def detrended_harmonics(
-    values: object, *, detrend: Detrend = "linear", slope: object = None, peak_from: int = 1
+    values: object,
+    *,
+    detrend: Detrend = "linear",
+    slope: object = None,
+    peak_from: int = 1,
+    band: tuple[object, object] | None = None,
+    keep_power: bool = True,
 ) -> DetrendedHarmonics:
     """Untapered harmonic variances of one or many series, with the removed mean and line.
 
@@ -399,6 +582,13 @@ def detrended_harmonics(
     peak_from : int
         Lowest harmonic searched for ``peak_harmonic`` (1 by default; along-track windows
         leave out k = 1, which a detrend and any regional field confuse).
+    band : (array_like of int, array_like of int), optional
+        First and last harmonic of a band per series, shape (...) each: ``band_variance`` is
+        the sum of s_k^2 over k = first..last (0 where last < first).
+    keep_power : bool
+        Keep the power of every harmonic (default). Without it ``power`` is None and only
+        the per-series results are formed: for many series, nothing as large as the
+        transform is written to memory.
 
     Returns
     -------
@@ -417,17 +607,23 @@ def detrended_harmonics(
                 f"slope: {slope.shape} slopes given for series of shape {array.shape[:-1]} "
                 f"(detrend {detrend!r}); give one per series, for detrend='linear' only"
             )
-    variances, mean, slope, sums = _untapered_variances(array, detrend, slope, peak_from=int(peak_from))
+    shape = array.shape[:-1]
+    if band is not None:
+        band = tuple(np.broadcast_to(np.asarray(edge), shape) for edge in band)
+        if len(band) != 2 or any(not np.issubdtype(edge.dtype, np.integer) for edge in band) \
+                or np.any((band[0] < 0) & (band[1] >= band[0])) \
+                or np.any((band[1] > count // 2) & (band[1] >= band[0])):
+            raise InputError(f"band: give (first, last) harmonics 0..{count // 2} per series")
+    sums = _Sums(int(np.prod(shape)), count, peak_from=int(peak_from), band=band)
+    power, mean, slope = _untapered_variances(array, detrend, slope, sums=sums, scaled=False, keep=keep_power)
     half = 0.5 * (count - 1) * slope
     return DetrendedHarmonics(
-        variance=variances,
+        power=power,
         mean=np.asarray(mean),
         slope=np.asarray(slope),
         first=np.asarray(array[..., 0] - mean + half),
         last=np.asarray(array[..., -1] - mean - half),
-        total_variance=sums[0],
-        circular_lag1=sums[1],
-        peak_harmonic=sums[2],
+        **sums.result(shape, 2.0 / (count * (count - 1))),
         peak_from=int(peak_from),
         n=int(count),
         detrend=str(detrend),

@@ -206,8 +206,9 @@ def window_slopes(values: np.ndarray, *, length: int, step: int) -> np.ndarray:
     span = (count - 1) * step + length
     blocks = values[:span].reshape(-1, block)
     within = np.arange(block) - (block - 1) / 2.0
-    zeroth = blocks.sum(axis=1)
-    first = np.einsum("ij,j->i", blocks, within)
+    # Both block sums as matrix-vector products (BLAS, one read of the samples each).
+    zeroth = blocks @ np.ones(block)
+    first = blocks @ within
     per, hop = length // block, step // block
     offsets = np.arange(per) * block + (block - 1) / 2.0 - (length - 1) / 2.0
     weighted = sliding_window_view(first, per)[::hop].sum(axis=1)

@@ -94,6 +94,16 @@ def _check_m(m: object) -> int:
     return int(m)
 
 
+def _check_m_array(m: object) -> np.ndarray:
+    """``m`` as an array of integers >= 2 (one number, or one per statistic)."""
+    if np.ndim(m) == 0:
+        return np.asarray(_check_m(m))
+    counts = np.asarray(m)
+    if counts.dtype == bool or not np.issubdtype(counts.dtype, np.integer) or np.any(counts < 2):
+        raise InputError("m: numbers of harmonics must be integers >= 2 (N >= 5 samples)")
+    return counts
+
+
 def _decimal_tail(x: float, m: int, digits: int) -> float:
     """Fisher's series for one x, in decimal arithmetic of ``digits`` significant digits.
 
@@ -122,7 +132,7 @@ def _decimal_tail(x: float, m: int, digits: int) -> float:
         return float(total)
 
 
-def fisher_p_value(g: object, *, m: int) -> np.ndarray | float:
+def fisher_p_value(g: object, *, m: object) -> np.ndarray | float:
     """Exact probability that Fisher's g exceeds ``g`` under Gaussian white noise.
 
     P(g > x) = sum_{j=1}^{min(m, floor(1/x))} (-1)^(j-1) C(m, j) (1 - j x)^(m-1)
@@ -131,14 +141,15 @@ def fisher_p_value(g: object, *, m: int) -> np.ndarray | float:
     Parameters
     ----------
     g : float or array_like
-        Observed statistic(s), 0 <= g <= 1, all for the same ``m``.
-    m : int
-        Number of harmonics in the test, m >= 2 (see :func:`fisher_m`).
+        Observed statistic(s), 0 <= g <= 1.
+    m : int or array_like of int
+        Number of harmonics in the test, m >= 2 (see :func:`fisher_m`): one for all ``g``, or
+        one per statistic (broadcast against ``g``), e.g. for windows of several lengths.
 
     Returns
     -------
     float or ndarray
-        p-values, shaped like ``g``.
+        p-values, shaped like ``g`` (broadcast against ``m``).
 
     Notes
     -----
@@ -161,45 +172,65 @@ def fisher_p_value(g: object, *, m: int) -> np.ndarray | float:
     >>> round(fisher_p_value(0.5, m=10), 10)  # 10 * 2**-9, exact
     0.01953125
     """
-    m = _check_m(m)
+    harmonics = _check_m_array(m)
     values = np.asarray(g, dtype=np.float64)
     if not np.all(np.isfinite(values)) or np.any((values < 0) | (values > 1)):
         raise InputError("g: Fisher's statistic must lie between 0 and 1")
+    if harmonics.ndim:
+        values, harmonics = np.broadcast_arrays(values, harmonics)
     flat = values.ravel()
     result = np.ones(flat.shape)
     result[flat >= 1.0] = 0.0
-    live = np.flatnonzero((flat > 1.0 / m) & (flat < 1.0))
-    x = flat[live]
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        if harmonics.ndim:
+            live = np.flatnonzero((flat > 1.0 / harmonics.ravel()) & (flat < 1.0))
+            m = harmonics.ravel()[live]
+        else:
+            live = np.flatnonzero((flat > 1.0 / int(harmonics)) & (flat < 1.0))
+            m = np.full(live.size, int(harmonics))
+        x = flat[live]
         log_bound = m * np.log1p(-np.exp((m - 1) * np.log1p(-x)))
-    uncertain = log_bound >= math.log(1e-17)
-    live, x = live[uncertain], x[uncertain]
+        uncertain = log_bound >= math.log(1e-17)
+        live, x, m = live[uncertain], x[uncertain], m[uncertain]
+        # log C(m, j) for each distinct m, accumulated term by term as for one m alone.
+        if harmonics.ndim and m.size > 1:
+            distinct = np.sort(m)
+            distinct = distinct[np.concatenate([[True], distinct[1:] != distinct[:-1]])]
+        else:
+            distinct = m[:1]
+        which = np.searchsorted(distinct, m)
+        counts = distinct.tolist()
+        log_binomial = [0.0] * len(counts)
 
-    total = np.zeros(x.shape)
-    largest = np.full(x.shape, -np.inf)
-    previous = np.full(x.shape, -np.inf)
-    active = np.arange(x.size)
-    log_binomial = 0.0
-    for j in range(1, m + 1):
-        if active.size == 0:
-            break
-        log_binomial += math.log(m - j + 1) - math.log(j)
-        base = -j * x[active]
-        open_ = base > -1.0
-        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-            log_term = np.where(open_, log_binomial + (m - 1) * np.log1p(base), -np.inf)
+        total = np.zeros(x.shape)
+        largest = np.full(x.shape, -np.inf)
+        previous = np.full(x.shape, -np.inf)
+        active = np.arange(x.size)
+        for j in range(1, max(counts, default=0) + 1):
+            if active.size == 0:
+                break
+            log_binomial = [b + (math.log(c - j + 1) - math.log(j)) if j <= c else -np.inf
+                            for b, c in zip(log_binomial, counts, strict=True)]
+            base = -j * x[active]
+            open_ = base > -1.0
+            if len(counts) == 1:
+                log_term = np.where(open_, log_binomial[0] + (counts[0] - 1) * np.log1p(base), -np.inf)
+            else:
+                open_ &= j <= m[active]
+                log_term = np.where(open_, np.take(log_binomial, which[active])
+                                    + (m[active] - 1) * np.log1p(base), -np.inf)
             term = np.exp(log_term)
-        total[active] += term if j % 2 else -term
-        past_peak = (log_term < previous[active]) & (log_term < largest[active] - 45.0)
-        largest[active] = np.maximum(largest[active], log_term)
-        previous[active] = log_term
-        active = active[open_ & ~past_peak]
+            total[active] += term if j % 2 else -term
+            past_peak = (log_term < previous[active]) & (log_term < largest[active] - 45.0)
+            largest[active] = np.maximum(largest[active], log_term)
+            previous[active] = log_term
+            active = active[open_ & ~past_peak]
     result[live] = total
 
     cancelled = np.flatnonzero(largest > math.log(_LARGEST_FLOAT_TERM))
     for index in cancelled:
         digits = 25 + int(largest[index] / math.log(10.0))
-        result[live[index]] = _decimal_tail(float(x[index]), m, digits)
+        result[live[index]] = _decimal_tail(float(x[index]), int(m[index]), digits)
     result = np.clip(result, 0.0, 1.0).reshape(values.shape)
     return float(result) if result.ndim == 0 else result
 
@@ -275,9 +306,11 @@ class FisherTest:
     p_value : float or ndarray
         Exact P(g_null > g) under Gaussian white noise.
     g_critical : float
-        Exact critical value at ``alpha``.
+        Exact critical value at ``alpha`` (:func:`fisher_critical_value`; found on first use,
+        a root search of the exact series that takes milliseconds for thousands of
+        harmonics, and a batch whose segments all differ in length would pay it for each).
     g_critical_approx : float
-        1 - (alpha/m)^(1/(m-1)).
+        1 - (alpha/m)^(1/(m-1)) (on first use).
     alpha : float
         Significance level.
     dominant_k : int or ndarray
@@ -297,8 +330,6 @@ class FisherTest:
     g: np.ndarray | float
     m: int
     p_value: np.ndarray | float
-    g_critical: float
-    g_critical_approx: float
     alpha: float
     dominant_k: np.ndarray | int
     dominant_wavelength: np.ndarray | float
@@ -306,6 +337,16 @@ class FisherTest:
     n: int
     spacing: float
     null: str = "white noise"
+
+    @functools.cached_property
+    def g_critical(self) -> float:
+        """Exact critical value at ``alpha``."""
+        return fisher_critical_value(m=self.m, alpha=self.alpha)
+
+    @functools.cached_property
+    def g_critical_approx(self) -> float:
+        """1 - (alpha/m)^(1/(m-1))."""
+        return fisher_critical_value_approx(m=self.m, alpha=self.alpha)
 
     def to_frame(self):
         """One row per series; columns ``g``, ``m``, ``p_value``, ``g_critical``,
@@ -404,8 +445,6 @@ def fisher_from_variances(
         g=_scalar_or_array(np.asarray(g)),
         m=m,
         p_value=_scalar_or_array(p_value),
-        g_critical=fisher_critical_value(m=m, alpha=alpha),
-        g_critical_approx=fisher_critical_value_approx(m=m, alpha=alpha),
         alpha=alpha,
         dominant_k=_scalar_or_array(dominant),
         dominant_wavelength=_scalar_or_array(n * dx / dominant),
@@ -527,8 +566,12 @@ def _ar1_shape(r: np.ndarray, harmonic: np.ndarray, n: int) -> np.ndarray:
     digits where 1 + r^2 and 2 r cos(2 pi k/N) nearly cancel (|r| -> 1 near k = 0 or N/2).
     """
     half = np.pi * harmonic / n
-    below = np.where(r >= 0, (1.0 - r) ** 2 + 4.0 * r * np.sin(half) ** 2,
-                     (1.0 + r) ** 2 - 4.0 * r * np.cos(half) ** 2)
+    if np.ndim(r) == 0:  # one coefficient: only its form
+        below = ((1.0 - r) ** 2 + 4.0 * r * np.sin(half) ** 2 if r >= 0
+                 else (1.0 + r) ** 2 - 4.0 * r * np.cos(half) ** 2)
+    else:
+        below = np.where(r >= 0, (1.0 - r) ** 2 + 4.0 * r * np.sin(half) ** 2,
+                         (1.0 + r) ** 2 - 4.0 * r * np.cos(half) ** 2)
     return (1.0 - r) * (1.0 + r) / below
 
 
@@ -536,7 +579,7 @@ def _ar1_shape(r: np.ndarray, harmonic: np.ndarray, n: int) -> np.ndarray:
 _AR1_SUMMED_UP_TO = 128
 
 
-def _ar1_sum(r: np.ndarray, n: int) -> np.ndarray:
+def _ar1_sum(r: np.ndarray, n: object) -> np.ndarray:
     """sum_{k>=1} d_k P_k over k = 1..N//2 (d = 1/2 at the Nyquist harmonic of even N).
 
     By the symmetry P_k = P_{N-k} this is half the sum over k = 1..N-1, and the sum of the
@@ -547,13 +590,24 @@ def _ar1_sum(r: np.ndarray, n: int) -> np.ndarray:
     digits as |r| -> 1. The subtraction cancels where the k = 0 term (1 + r)/(1 - r) dwarfs
     the sum, i.e. r near 1 and N(1 - r) small; for N <= ``_AR1_SUMMED_UP_TO`` the sum is
     therefore taken term by term (cheap there), and above it, for |r| <= 0.999, the closed
-    form keeps about 1e-12 (checked against mpmath in the tests).
+    form keeps about 1e-12 (checked against mpmath in the tests). ``n``: one N, or one per
+    coefficient (broadcast against ``r``).
     """
     r = np.asarray(r, dtype=np.float64)
-    if n <= _AR1_SUMMED_UP_TO:
-        k = np.arange(1, n // 2 + 1)
-        weight = np.where(2 * k == n, 0.5, 1.0)
-        return (weight * _ar1_shape(r[..., np.newaxis], k, n)).sum(axis=-1)
+    if np.ndim(n) == 0:
+        n = int(n)
+        if n <= _AR1_SUMMED_UP_TO:
+            k = np.arange(1, n // 2 + 1)
+            weight = np.where(2 * k == n, 0.5, 1.0)
+            return (weight * _ar1_shape(r[..., np.newaxis], k, n)).sum(axis=-1)
+    else:
+        r, n = np.broadcast_arrays(r, np.asarray(n))
+        summed = n <= _AR1_SUMMED_UP_TO
+        if summed.any():  # each short length on its own, as one N alone is
+            result = _ar1_sum(r, np.where(summed, _AR1_SUMMED_UP_TO + 1, n))
+            for count in np.unique(n[summed]).tolist():
+                result[n == count] = _ar1_sum(r[n == count], count)
+            return result
     size = np.abs(r)
     with np.errstate(divide="ignore"):
         power = np.expm1(n * np.log(size))  # |r|^N - 1
@@ -562,15 +616,16 @@ def _ar1_sum(r: np.ndarray, n: int) -> np.ndarray:
     return 0.5 * (n * (2.0 - complement) / complement - (1.0 + r) / (1.0 - r))
 
 
-def _harmonics_checked(harmonic: object, n: int) -> np.ndarray:
+def _harmonics_checked(harmonic: object, n: object) -> np.ndarray:
     k = np.asarray(harmonic)
-    if not np.issubdtype(k.dtype, np.integer) or np.any((k < 0) | (k > n // 2)):
-        raise InputError(f"harmonic: harmonic numbers must be whole numbers 0..{n // 2} for N = {n}")
+    if not np.issubdtype(k.dtype, np.integer) or np.any((k < 0) | (k > np.asarray(n) // 2)):
+        top = f"{n // 2} for N = {n}" if np.ndim(n) == 0 else "N//2 for their N"
+        raise InputError(f"harmonic: harmonic numbers must be whole numbers 0..{top}")
     return k
 
 
 def ar1_background(
-    lag1: object, *, n: int, variance: object, harmonic: object = None
+    lag1: object, *, n: object, variance: object, harmonic: object = None
 ) -> np.ndarray:
     """Expected variance of each harmonic for AR(1) noise with the observed total variance.
 
@@ -586,38 +641,69 @@ def ar1_background(
     ----------
     lag1 : float or array_like, shape (...)
         AR(1) coefficient(s), |r| < 1.
-    n : int
-        Samples per series.
+    n : int or array_like of int
+        Samples per series: one N, or (with ``harmonic``) one per series, broadcast like it.
     variance : float or array_like, shape (...)
         Total variance V of the harmonics k >= 1 (field units squared).
     harmonic : int or array_like of int, optional
         Harmonic numbers 0..N//2 at which to evaluate B_k, broadcast against ``lag1`` and
-        ``variance`` (e.g. one per series). Default: every harmonic, on a new last axis.
+        ``variance`` (e.g. one per series). Default: every harmonic, on a new last axis (one
+        N only).
 
     Returns
     -------
     ndarray
         Shape (..., N//2 + 1) for every harmonic, else the broadcast shape.
     """
-    n = int(n)
+    n = _counts_checked(n)
     r = np.clip(np.asarray(lag1, dtype=np.float64), -_LAG1_LIMIT, _LAG1_LIMIT)
     total = np.asarray(variance, dtype=np.float64)
     if harmonic is None:
+        if np.ndim(n):
+            raise InputError("n: give one number of samples to evaluate every harmonic")
         k = np.arange(n // 2 + 1)
-        r, total = r[..., np.newaxis], total[..., np.newaxis]
+        weight = np.ones(k.size)
+        weight[0] = 0.0
+        if n % 2 == 0:
+            weight[-1] = 0.5
+        if r.ndim:
+            r, total = r[..., np.newaxis], total[..., np.newaxis]
     else:
         k = _harmonics_checked(harmonic, n)
-    weight = np.where(k == 0, 0.0, np.where(2 * k == n, 0.5, 1.0))
+        weight = np.where(k == 0, 0.0, np.where(2 * k == n, 0.5, 1.0))
     return total * weight * _ar1_shape(r, k, n) / _ar1_sum(r, n)
 
 
-def _threshold(background: np.ndarray, harmonic: np.ndarray, *, n: int, alpha: float) -> np.ndarray:
-    """background * chi2_nu(1 - alpha) / nu, nu = 2 (1 at the Nyquist harmonic of even N);
-    ``inf`` at k = 0, which is never tested."""
+def _counts_checked(n: object) -> int | np.ndarray:
+    """Samples per series: one whole number, or an array of them."""
+    if np.ndim(n) == 0:
+        return int(n)
+    counts = np.asarray(n)
+    if counts.dtype == bool or not np.issubdtype(counts.dtype, np.integer):
+        raise InputError("n: numbers of samples must be whole numbers")
+    return counts
+
+
+@functools.lru_cache(maxsize=64)
+def _chi2_factors(alpha: float) -> tuple[float, float]:
+    """chi2_nu(1 - alpha) / nu for nu = 2 and nu = 1 (kept: scipy's quantile is slow to call)."""
     from scipy.stats import chi2
 
-    # Two quantiles, not one per entry: scipy's quantile costs about a microsecond each.
     interior, nyquist = chi2.ppf(1.0 - alpha, [2.0, 1.0]) / [2.0, 1.0]
+    return float(interior), float(nyquist)
+
+
+def _threshold(background: np.ndarray, harmonic: np.ndarray | None, *, n: object, alpha: float) -> np.ndarray:
+    """background * chi2_nu(1 - alpha) / nu, nu = 2 (1 at the Nyquist harmonic of even N);
+    ``inf`` at k = 0, which is never tested. ``harmonic`` None: every harmonic k = 0..N//2
+    along the last axis (one N)."""
+    interior, nyquist = _chi2_factors(alpha)
+    if harmonic is None:
+        threshold = background * interior
+        threshold[..., 0] = np.inf
+        if n % 2 == 0:
+            threshold[..., -1] = background[..., -1] * nyquist
+        return threshold
     factor = np.where(2 * harmonic == n, nyquist, interior)
     return np.where(harmonic == 0, np.inf, background * factor)
 
@@ -628,7 +714,7 @@ def red_noise_at(
     harmonic: object,
     total: object,
     lag1: object,
-    n: int,
+    n: object,
     alpha: float = 0.05,
 ) -> np.ndarray:
     """The red-noise test of :func:`red_noise_from_variances` at chosen harmonics only.
@@ -648,8 +734,8 @@ def red_noise_at(
         Total variance of the harmonics k >= 1 of each series.
     lag1 : array_like, shape (...)
         AR(1) coefficient of each series.
-    n : int
-        Samples per series.
+    n : int or array_like of int, shape (...)
+        Samples per series: one N, or one per series (windows of several lengths).
     alpha : float
         Level of the test (default 0.05).
 
@@ -658,7 +744,7 @@ def red_noise_at(
     ndarray of bool
     """
     alpha = check_probability(alpha, what="alpha")
-    n = int(n)
+    n = _counts_checked(n)
     k = _harmonics_checked(harmonic, n)
     background = ar1_background(lag1, n=n, variance=total, harmonic=k)
     return np.asarray(variance, dtype=np.float64) > _threshold(background, k, n=n, alpha=alpha)
@@ -804,7 +890,7 @@ def red_noise_from_variances(
     array, n, dx, alpha = _checked_variances(variances, n=n, spacing=spacing, alpha=alpha)
     total = array[..., 1:].sum(axis=-1)
     background = ar1_background(lag1, n=n, variance=total)
-    threshold = _threshold(background, np.arange(n // 2 + 1), n=n, alpha=alpha)
+    threshold = _threshold(background, None, n=n, alpha=alpha)
     significant = array > threshold
     return RedNoiseTest(
         lag1=_scalar_or_array(np.clip(np.asarray(lag1, dtype=np.float64), -1.0, 1.0)),

@@ -88,6 +88,54 @@ class TestDetrendedHarmonics:
         # Rounding of either sum: about 1e-16 of sum |c_j y_j| / sum c_j^2, here ~1e-15.
         np.testing.assert_allclose(given.slope, fitted.slope, rtol=1e-12, atol=1e-13)
 
+    @pytest.mark.parametrize("count", [64, 65])
+    @pytest.mark.parametrize("near", [False, True])
+    def test_band_peak_and_fisher_sums_without_the_power(self, count, near):
+        # Reference: the O(N^2) sums (tests/spectral/reference.py), band by band, and the same
+        # call keeping the power. Bands of one, several and no harmonic; far-apart bands, and
+        # near-equal bands close to the Nyquist harmonic (the neighbouring windows' case,
+        # whose few columns are kept chunk by chunk and summed at the end).
+        series = _red_series((9, count), 0.6, seed=count + 1)
+        first = np.array([1, 2, 5, 30, 29, 28, 10, 0, count // 2])
+        last = np.array([1, 8, 4, 32, count // 2, 31, 30, count // 2, count // 2])
+        if near:
+            first = np.array([26, 27, 25, 26, 30, 27, 25, 26, 27])
+            last = np.array([30, 32, 31, 31, 29, count // 2, 31, 32, 30])
+        kept = detrended_harmonics(series, peak_from=2, band=(first, last))
+        lean = detrended_harmonics(series, peak_from=2, band=(first, last), keep_power=False)
+        assert lean.power is None and kept.power is not None
+        top = (count - 1) // 2
+        for row in range(series.shape[0]):
+            _, _, variance = slow_harmonics(series[row], "linear")
+            band = variance[first[row] : last[row] + 1].sum() if last[row] >= first[row] else 0.0
+            assert lean.band_variance[row] == pytest.approx(band, rel=1e-11, abs=1e-12)
+            k = int(np.argmax(variance[2 : top + 1])) + 2
+            assert lean.peak_harmonic[row] == k
+            assert lean.peak_variance[row] == pytest.approx(variance[k], rel=1e-11)
+            assert lean.tested_variance[row] == pytest.approx(variance[1 : top + 1].sum(), rel=1e-11)
+        for name in ("band_variance", "peak_harmonic", "peak_variance", "tested_variance", "total_variance",
+                     "circular_lag1", "mean", "slope"):
+            np.testing.assert_array_equal(getattr(lean, name), getattr(kept, name))
+        np.testing.assert_array_equal(kept.variance, kept.power * kept.variance_factor)
+        with pytest.raises(InputError, match="not kept"):
+            _ = lean.variance
+        empty = detrended_harmonics(series, band=(np.full(9, 5), np.full(9, 4)), keep_power=False)
+        np.testing.assert_array_equal(empty.band_variance, np.zeros(9))
+        with pytest.raises(InputError, match="band"):
+            detrended_harmonics(series, band=(first, last + count))
+
+    @pytest.mark.parametrize("count", [3, 4, 16, 17, 1000, 1023, 4097])
+    def test_line_transform_in_closed_form(self, count):
+        # rfft of c_j = j - (N-1)/2 is -N/2 + i (N/2) cot(pi k/N) for k >= 1 (a geometric
+        # series), against numpy.fft.rfft of the centred index itself.
+        from profiles.spectral.harmonics import _centred_transform
+        from profiles.spectral.preprocess import centred_index
+
+        expected = np.fft.rfft(centred_index(count))
+        expected[0] = 0.0
+        got = _centred_transform(count)
+        np.testing.assert_allclose(got, expected, rtol=0, atol=1e-13 * np.abs(expected).max())
+
     def test_one_series_and_refusals(self):
         one = detrended_harmonics(np.cos(np.arange(40) * 2 * np.pi * 5 / 40) + 2.0)
         assert int(one.peak_harmonic) == 5 and one.variance.shape == (21,)
@@ -146,9 +194,33 @@ class TestRedNoiseAt:
                                     lag1=lag1, n=n)
                 assert np.all(edge == expected)
 
+    def test_one_length_per_series_equals_one_call_per_length(self):
+        # Windows of several lengths in one call: each series gets what a call for its N alone
+        # gives (the same arithmetic, number for number), short lengths (summed normaliser)
+        # and long ones (closed form) mixed.
+        rng = np.random.default_rng(5)
+        n = np.array([16, 17, 64, 200, 257, 1024, 16, 1024, 129, 128])
+        lag1 = rng.uniform(-0.99, 0.99, n.size)
+        total = rng.uniform(1.0, 5.0, n.size)
+        harmonic = rng.integers(1, n // 2 + 1)
+        variance = total * rng.uniform(0.0, 0.2, n.size)
+        background = ar1_background(lag1, n=n, variance=total, harmonic=harmonic)
+        flagged = red_noise_at(variance, harmonic=harmonic, total=total, lag1=lag1, n=n)
+        for i in range(n.size):
+            alone = ar1_background(lag1[i], n=int(n[i]), variance=total[i], harmonic=harmonic[i])
+            assert background[i] == alone
+            assert flagged[i] == red_noise_at(variance[i], harmonic=harmonic[i], total=total[i], lag1=lag1[i],
+                                              n=int(n[i]))
+        with pytest.raises(InputError, match="one number of samples"):
+            ar1_background(lag1, n=n, variance=total)
+
     def test_refusals(self):
         with pytest.raises(InputError, match="harmonic"):
             red_noise_at(1.0, harmonic=40, total=10.0, lag1=0.5, n=64)
+        with pytest.raises(InputError, match="harmonic"):
+            red_noise_at(np.ones(2), harmonic=np.array([3, 40]), total=10.0, lag1=0.5, n=np.array([64, 64]))
+        with pytest.raises(InputError, match="whole numbers"):
+            red_noise_at(np.ones(2), harmonic=3, total=10.0, lag1=0.5, n=np.array([64.0, 64.0]))
         with pytest.raises(InputError, match="harmonic"):
             red_noise_at(1.0, harmonic=2.5, total=10.0, lag1=0.5, n=64)
         with pytest.raises(InputError, match="alpha"):

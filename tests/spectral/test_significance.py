@@ -118,6 +118,26 @@ class TestFisherDistribution:
             fisher_p_value(1.5, m=10)
         with pytest.raises(InputError):
             fisher_p_value(0.5, m=1)
+        with pytest.raises(InputError):
+            fisher_p_value([0.5, 0.5], m=np.array([10, 1]))
+        with pytest.raises(InputError):
+            fisher_p_value([0.5, 0.5], m=np.array([10.0, 12.0]))
+
+    def test_one_m_per_statistic(self):
+        # Windows of several lengths in one call: each p-value is the number a call with its
+        # own m gives, which the mpmath series checks (reference.fisher_tail_mpmath); the
+        # statistics cover p = 1 (g <= 1/m), the decimal range (p near 1) and tiny p.
+        rng = np.random.default_rng(4)
+        m = rng.choice([2, 3, 7, 50, 127, 128, 511], 300)
+        near = np.minimum(1.0 / m[150:] * rng.uniform(0.9, 3.0, 150), 1.0)  # p near 1 and exactly 1
+        g = np.concatenate([rng.uniform(0.0, 1.0, 150), near])
+        got = fisher_p_value(g, m=m)
+        expected = np.array([fisher_p_value(x, m=int(k)) for x, k in zip(g, m, strict=True)])
+        np.testing.assert_array_equal(got, expected)
+        for x, k, p in list(zip(g, m, got, strict=True))[::15]:
+            assert p == pytest.approx(fisher_tail_mpmath(x, int(k)), rel=1e-10, abs=1e-300)
+        shaped = fisher_p_value(g.reshape(3, 100), m=m.reshape(3, 100))
+        np.testing.assert_array_equal(shaped, got.reshape(3, 100))
 
     def test_m_from_n(self):
         # references.md section 1: m = (N-1)/2 for odd N, N/2 - 1 for even N.
@@ -184,6 +204,16 @@ class TestFisherTest:
     def test_variances_must_match_n(self):
         with pytest.raises(InputError, match="entries"):
             fisher_from_variances(np.ones(10), n=30, spacing=1.0)
+
+    def test_critical_values_found_when_asked_for(self):
+        # The verdict needs only the p-value; the critical values are those of
+        # fisher_critical_value (checked against the published table above), found on first
+        # use and kept.
+        result = fisher_from_variances(np.linspace(1.0, 2.0, 51), n=100, spacing=1.0, alpha=0.01)
+        assert "g_critical" not in vars(result)
+        assert result.g_critical == fisher_critical_value(m=49, alpha=0.01)
+        assert result.g_critical_approx == fisher_critical_value_approx(m=49, alpha=0.01)
+        assert "g_critical" in vars(result)
 
 
 def _ar1(rho: float, shape: tuple[int, int], seed: int) -> np.ndarray:
