@@ -431,14 +431,21 @@ def _collect(client, tasks: list[dict], records: dict, *, progress: bool) -> Non
 
 
 #: Settings of the local cluster's workers. Their statistical profiler (for the dashboard,
-#: which the batch does not use) samples every thread's stack every 10 ms, and glibc's
+#: which the batch does not use) samples every thread's stack every 10 ms; glibc's
 #: MALLOC_TRIM_THRESHOLD_, which Dask's nanny sets to 64 KiB by default, also fixes the mmap
-#: threshold, so that every large temporary array is mapped and its pages faulted afresh:
-#: together they made the fall-off fit, many small numpy calls, 1.5x slower in a worker than
-#: in a plain process (docs/performance.md). A worker holds one file at a time, so the
-#: memory the trim threshold returns early is little (the benchmark shows the peak).
+#: threshold, so that every large temporary array is mapped and its pages faulted afresh; and
+#: the worker's event loop wakes every 20 ms to time itself (admin tick), every 100 ms to
+#: read its memory and every 500 ms for the dashboard's system monitor, each time taking the
+#: interpreter lock from the thread that runs the task. Together they made the tasks 1.2-1.5x
+#: slower in a worker than in a plain process (docs/performance.md). The ticks now come every
+#: second (the memory limit is still enforced, a second later at most) and the system
+#: monitor every 5 s. A worker holds one file at a time, so the memory the trim threshold
+#: returns early is little (the benchmark shows the peak).
 LOCAL_WORKER_CONFIG = {
     "distributed.worker.profile.enabled": False,
+    "distributed.admin.tick.interval": "1s",
+    "distributed.worker.memory.monitor-interval": "1s",
+    "distributed.admin.system-monitor.interval": "5s",
     "distributed.nanny.pre-spawn-environ": {
         "OMP_NUM_THREADS": 1,
         "MKL_NUM_THREADS": 1,
