@@ -362,15 +362,14 @@ def piece_spectrum(values, *, spacing: float, nw: float = FIT_NW) -> PieceSpectr
     equally weighted tapers at NW = 4 and up to 2.8 where the first taper alone carries
     the estimate; the fit's standard errors use it.
     """
-    from scipy.fft import next_fast_len
-
+    from .spectral.preprocess import fast_length
     from .spectral.psd import adaptive_weights, multitaper_coefficients
 
     dx = float(spacing)
     differences = np.diff(np.asarray(values, dtype=float))
     # Zero-padded to a length with small prime factors: a transform of a prime length costs
     # about fifteen times more, and the finer grid only interpolates (bin_weight N/M).
-    length = next_fast_len(differences.size, real=True)
+    length = fast_length(differences.size)
     eigen = multitaper_coefficients(differences, spacing=dx, nw=nw, n_fft=length)
     spectra = eigen.coefficients.real**2 + eigen.coefficients.imag**2
     weights = adaptive_weights(eigen)

@@ -95,15 +95,15 @@ def confidence_factors(dof: object, *, confidence: float = 0.95) -> ConfidenceFa
     [nu S / chi2_nu((1 + c)/2), nu S / chi2_nu((1 - c)/2)] (Percival and Walden 1993,
     section 6.10; equation number from memory). ``dof`` may be non-integer.
     """
-    from scipy.stats import chi2
+    from scipy.special import gammaincinv  # chi2_nu(q) = 2 P^-1(nu/2, q), as scipy.stats.chi2.ppf
 
     confidence = check_probability(confidence, what="confidence")
     nu = np.asarray(dof, dtype=np.float64)
     if np.any(~(nu > 0)):
         raise InputError("dof: degrees of freedom must be positive")
     return ConfidenceFactors(
-        lower=nu / chi2.ppf(0.5 + confidence / 2.0, nu),
-        upper=nu / chi2.ppf(0.5 - confidence / 2.0, nu),
+        lower=nu / (2.0 * gammaincinv(nu / 2.0, 0.5 + confidence / 2.0)),
+        upper=nu / (2.0 * gammaincinv(nu / 2.0, 0.5 - confidence / 2.0)),
         dof=nu,
         confidence=confidence,
     )

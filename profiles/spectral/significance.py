@@ -686,10 +686,14 @@ def _counts_checked(n: object) -> int | np.ndarray:
 
 @functools.lru_cache(maxsize=64)
 def _chi2_factors(alpha: float) -> tuple[float, float]:
-    """chi2_nu(1 - alpha) / nu for nu = 2 and nu = 1 (kept: scipy's quantile is slow to call)."""
-    from scipy.stats import chi2
+    """chi2_nu(1 - alpha) / nu for nu = 2 and nu = 1 (kept: scipy's quantile is slow to call).
 
-    interior, nyquist = chi2.ppf(1.0 - alpha, [2.0, 1.0]) / [2.0, 1.0]
+    The quantile is 2 P^-1(nu/2, 1 - alpha), P the regularised lower incomplete gamma
+    function: ``scipy.stats.chi2.ppf`` computes it so, and ``scipy.special.gammaincinv`` gives
+    the same numbers without importing scipy.stats (half a second in a fresh process)."""
+    from scipy.special import gammaincinv
+
+    interior, nyquist = 2.0 * gammaincinv(np.array([1.0, 0.5]), 1.0 - alpha) / [2.0, 1.0]
     return float(interior), float(nyquist)
 
 
