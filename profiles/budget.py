@@ -120,10 +120,10 @@ class PowerLawImageSum:
     A(c, beta) = c^beta [zeta(beta, 1 - c) + zeta(beta, 1 + c)]
                = sum_{n >= 1} r_n-^beta + r_n+^beta,  r_n-+ = c / (n -+ c),
 
-    as :func:`power_law_images`, but built for the fall-off fit, which needs it at one set of
-    c for hundreds of beta: the logarithms ln r are taken once, the images n = 1 .. 9 are
-    summed term by term and the rest by Euler-Maclaurin summation of the Hurwitz zeta
-    function from q = 10 -+ c,
+    as :func:`power_law_images`, but built for the fall-off fit, which needs it at fixed sets
+    of c for many beta: the logarithms ln r are taken once, the images n = 1 .. 9 are summed
+    term by term and the rest by Euler-Maclaurin summation of the Hurwitz zeta function from
+    q = 10 -+ c,
 
         sum_{m >= 0} (q + m)^-beta = q^(1 - beta) / (beta - 1) + q^-beta / 2
                                      + sum_{j=1}^{8} B_2j / (2j)! (beta)_(2j-1) q^(1 - beta - 2j)
@@ -137,81 +137,67 @@ class PowerLawImageSum:
 
     Parameters
     ----------
-    c : array_like, shape (n,)
-        k dx of each bin, in (0, 1/2].
+    c : array_like, shape (n,) or (P, n)
+        k dx of each bin, in (0, 1/2]; with two axes, one set of bins per problem (the fits
+        of several segments at once), each problem with its own betas.
     """
 
     def __init__(self, c):
-        c = np.asarray(c, dtype=float).ravel()
-        n = np.arange(1, _DIRECT_IMAGES + 1, dtype=float)[:, np.newaxis]
-        self.size = c.size
+        c = np.asarray(c, dtype=float)
+        self.batched = c.ndim == 2
+        c = np.atleast_2d(c)
+        n = np.arange(1, _DIRECT_IMAGES + 1, dtype=float)[:, np.newaxis, np.newaxis]
+        self.size = c.shape[-1]
         q = np.stack([_DIRECT_IMAGES + 1 - c, _DIRECT_IMAGES + 1 + c])  # where the two tails start
         with np.errstate(divide="ignore"):
             # ln r of the direct images (rows 0-17), then ln(c/q) of the two tails (rows 18-19)
-            self.log_ratio = np.concatenate([np.log(c / np.concatenate([n - c, n + c])), np.log(c / q)])
+            log_ratio = np.concatenate([np.log(c / np.concatenate([n - c, n + c])), np.log(c / q)])
+        self.log_ratio = np.ascontiguousarray(np.moveaxis(log_ratio, 0, 1))  # (P, 20, n)
         powers = 1 - 2 * np.arange(1, _BERNOULLI_TERMS.size + 1, dtype=float)
         # the tail's bracket is [1/(beta - 1), 1/2, B_2j/(2j)! (beta)_(2j-1)] @ basis
-        self.basis = np.concatenate([q[np.newaxis], np.ones((1, 2, c.size)), q ** powers[:, None, None]])
-        self.basis = self.basis.reshape(len(powers) + 2, 2 * c.size)
+        basis = np.concatenate([q[np.newaxis], np.ones((1, *q.shape)), q ** powers[:, None, None, None]])
+        self.basis = np.ascontiguousarray(np.moveaxis(basis, 2, 0)).reshape(c.shape[0], len(powers) + 2, -1)
 
-    def __call__(self, beta, *, slope: bool = False):
-        """A at every beta of a 1-D array (rows) and every c (columns); with ``slope``, also
-        dA/dbeta."""
-        b = np.ravel(np.asarray(beta, dtype=float))
-        if b.size == 1 or not np.all(b > 1.0):
-            rows = [self._one(float(value), slope) for value in b]
-            if not slope:
-                return np.array(rows)
-            return np.array([row[0] for row in rows]), np.array([row[1] for row in rows])
-        column = b[:, np.newaxis]
+    def __call__(self, beta, *, slope: bool = False, rows=None):
+        """A at every beta and every c: beta of shape (m,) gives (m, n); with a batch of
+        problems, beta of shape (P, m) (or (len(rows), m) for the problems ``rows``) gives
+        (P, m, n). With ``slope``, also dA/dbeta."""
+        b = np.asarray(beta, dtype=float)
+        log_ratio, basis = self.log_ratio, self.basis
+        if rows is not None:
+            log_ratio, basis = log_ratio[rows], basis[rows]
+        b = b.reshape(log_ratio.shape[0], -1) if self.batched else b.reshape(1, -1)
+        valid = b > 1.0
+        b = np.where(valid, b, 2.0)  # computed at a harmless value, then set as zeta sets it
+        column = b[..., np.newaxis]
         steps = column + np.arange(2 * _BERNOULLI_TERMS.size - 1)  # beta + i, i = 0 .. 14
-        rising = np.cumprod(steps, axis=1)[:, ::2]
+        rising = np.cumprod(steps, axis=-1)[..., ::2]
         head = 1.0 / (column - 1.0)
         half = np.full_like(column, 0.5)
-        coefficients = np.concatenate([head, half, _BERNOULLI_TERMS * rising], axis=1)
-        brackets = (coefficients @ self.basis).reshape(b.size, 2, self.size)
-        powers = np.exp(b[:, np.newaxis, np.newaxis] * self.log_ratio)
+        coefficients = np.concatenate([head, half, _BERNOULLI_TERMS * rising], axis=-1)
+        brackets = np.matmul(coefficients, basis).reshape(*b.shape, 2, self.size)
+        powers = np.exp(b[..., np.newaxis, np.newaxis] * log_ratio[:, np.newaxis])
         direct = 2 * _DIRECT_IMAGES
-        tail = powers[:, direct:]
-        value = powers[:, :direct].sum(axis=1) + (tail * brackets).sum(axis=1)
-        if not slope:
-            return value
-        reciprocal = np.cumsum(1.0 / steps, axis=1)[:, ::2]
-        slopes = np.concatenate([-head * head, 0.0 * half, _BERNOULLI_TERMS * rising * reciprocal], axis=1)
-        bracket_slopes = (slopes @ self.basis).reshape(b.size, 2, self.size)
-        weighted = powers * self.log_ratio
-        derivative = weighted[:, :direct].sum(axis=1) + (
-            weighted[:, direct:] * brackets + tail * bracket_slopes
-        ).sum(axis=1)
-        return value, derivative
-
-    def _one(self, beta: float, slope: bool):
-        if not beta > 1.0:  # as scipy.special.zeta: a pole at beta = 1, undefined below
-            value = np.full(self.size, np.inf if beta == 1.0 else np.nan)
-            return (value, np.full(self.size, np.nan)) if slope else value
-        # (beta)_(2j-1) for j = 1 .. 8 and their derivatives (beta)_(2j-1) sum_{i < 2j-1} 1/(beta + i)
-        rising, reciprocal, factors, slopes = 1.0, 0.0, [], []
-        for i in range(2 * _BERNOULLI_TERMS.size - 1):
-            rising *= beta + i
-            reciprocal += 1.0 / (beta + i)
-            if i % 2 == 0:
-                factors.append(rising)
-                slopes.append(rising * reciprocal)
-        head = 1.0 / (beta - 1.0)
-        coefficients = np.array(
-            [[head, 0.5, *(_BERNOULLI_TERMS * factors)], [-head * head, 0.0, *(_BERNOULLI_TERMS * slopes)]]
-        )
-        brackets = (coefficients[: 1 + slope] @ self.basis).reshape(1 + slope, 2, self.size)
-        powers = np.exp(beta * self.log_ratio)  # r^beta, then (c/q)^beta
-        direct, tail = 2 * _DIRECT_IMAGES, powers[2 * _DIRECT_IMAGES :]
-        value = powers[:direct].sum(axis=0) + (tail * brackets[0]).sum(axis=0)
-        if not slope:
-            return value
-        weighted = powers * self.log_ratio
-        derivative = weighted[:direct].sum(axis=0) + (
-            weighted[direct:] * brackets[0] + tail * brackets[1]
-        ).sum(axis=0)
-        return value, derivative
+        tail = powers[:, :, direct:]
+        value = powers[:, :, :direct].sum(axis=2) + (tail * brackets).sum(axis=2)
+        if slope:
+            reciprocal = np.cumsum(1.0 / steps, axis=-1)[..., ::2]
+            slopes = np.concatenate([-head * head, 0.0 * half, _BERNOULLI_TERMS * rising * reciprocal],
+                                    axis=-1)
+            bracket_slopes = np.matmul(slopes, basis).reshape(*b.shape, 2, self.size)
+            weighted = powers * log_ratio[:, np.newaxis]
+            derivative = weighted[:, :, :direct].sum(axis=2) + (
+                weighted[:, :, direct:] * brackets + tail * bracket_slopes
+            ).sum(axis=2)
+        if not valid.all():  # as scipy.special.zeta: a pole at beta = 1, undefined below
+            pole = np.where(np.asarray(beta, dtype=float).reshape(b.shape) == 1.0, np.inf, np.nan)
+            value = np.where(valid[..., np.newaxis], value, pole[..., np.newaxis])
+            if slope:
+                derivative = np.where(valid[..., np.newaxis], derivative, np.nan)
+        if not self.batched:
+            value = value[0]
+            derivative = derivative[0] if slope else None
+        return (value, derivative) if slope else value
 
 
 def exponential_images(c, u):

@@ -52,13 +52,13 @@ folds to m N0 (budget module).
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import Literal, get_args
 
 import numpy as np
 import pandas as pd
 
-from .budget import PowerLawImageSum, exponential_images, image_ratio
+from .budget import image_ratio
 from .errors import InputError
 
 #: Forms of the fall-off.
@@ -91,8 +91,6 @@ FLOOR_STARTS = (np.log(0.5), np.log(0.02))
 PEAK_FALSE_ALARM = 1e-3
 #: The automatic band is moved above peaks at most this many times.
 PEAK_ROUNDS = 3
-#: Largest step of ln C or ln N0 in one Newton iteration of the fit with a floor.
-MAX_LOG_STEP = 5.0
 
 #: Field kinds (as in a survey configuration or :func:`profiles.columns.field_kind`) whose
 #: spectra fall off exponentially.
@@ -452,355 +450,6 @@ def _select_bins(spectra: Sequence, band, start: float = 0.0) -> _Bins:
     return _Bins(k[order], psd[order], dx[order], weight[order], inflation[order], count, rule)
 
 
-@dataclass(frozen=True)
-class _Problem:
-    """The Whittle fit of one model form to pooled bins (normalised densities).
-
-    The log shape of the model at a value of z, and the log model and the objective at a
-    parameter vector, are computed once and kept (``memo``, a dictionary per problem): the
-    grid, the line searches and the central differences of the fits come back to the same
-    values many times (a folded power law costs two Hurwitz zeta functions per bin), and a
-    kept value is the very number a new evaluation would give.
-    """
-
-    model: str
-    bins: _Bins
-    k_ref: float
-    z_scale: float  # shape = z / z_scale (power law: 1; exponential: 4 pi k_max)
-    reference_spacing: float
-    memo: dict = field(default_factory=dict, repr=False, compare=False)
-
-    def log_shapes(self, zs, folded: bool) -> np.ndarray:
-        """ln of the (folded) model shape relative to its value at k_ref, one row per z of
-        ``zs`` (rows are read-only: they are kept)."""
-        keys = [("shape", z, folded) for z in np.ravel(zs).tolist()]
-        missing = [key for key in dict.fromkeys(keys) if key not in self.memo]
-        if missing:
-            self._evaluate([key[1] for key in missing], folded)
-        return np.array([self.memo[key] for key in keys])
-
-    def log_shape(self, z, folded: bool) -> np.ndarray:
-        key = ("shape", float(z), folded)
-        if key not in self.memo:
-            self._evaluate([key[1]], folded)
-        return self.memo[key]
-
-    def shape_slope(self, z, folded: bool) -> np.ndarray:
-        """d ln F / dz at every bin (F the model shape), analytic:
-        -ln(k/k_ref) (power law) or -4 pi (k - k_ref) (exponential), plus
-        (dA/d shape) / (1 + A) when folded, all over z_scale."""
-        key = ("slope", float(z), folded)
-        if key not in self.memo:
-            self._evaluate([key[1]], folded)
-        return self.memo[key]
-
-    def _evaluate(self, zs: list, folded: bool) -> None:
-        """Log shape and its slope at every z of ``zs``, into the memo. A folded power law
-        uses :class:`profiles.budget.PowerLawImageSum` on this problem's c = k dx (the image
-        ratio of :func:`profiles.budget.power_law_images` with its slope in beta); the
-        exponential's image ratio (:func:`profiles.budget.exponential_images`) is
-        differentiated in closed form."""
-        if "constants" not in self.memo:
-            k, dx = self.bins.wavenumber, self.bins.spacing
-            power_law = self.model == "power-law"
-            self.memo["constants"] = (
-                np.log(k / self.k_ref) if power_law else k - self.k_ref,  # ln F = -shape * this
-                np.log(k / self.k_ref) if power_law else 4.0 * np.pi * (k - self.k_ref),  # -d ln F/d shape
-                k * dx,
-                PowerLawImageSum(k * dx) if power_law else 4.0 * np.pi / dx,  # u = rate h
-            )
-        distance, rate_of_fall, c, images_of = self.memo["constants"]
-        shape = np.array(zs, dtype=float)[:, np.newaxis] / self.z_scale
-        log_f = -shape * distance if self.model == "power-law" else -4.0 * np.pi * shape * distance
-        slope = np.broadcast_to(-rate_of_fall, log_f.shape)
-        if folded:
-            with np.errstate(all="ignore"):
-                if self.model == "power-law":
-                    images, images_slope = images_of(shape, slope=True)
-                else:
-                    u = images_of * shape
-                    images = exponential_images(c, u)
-                    near, far, gap = np.exp(-u), np.exp(-u * (1.0 - 2.0 * c)), -np.expm1(-u)
-                    images_slope = images_of * ((-near - (1.0 - 2.0 * c) * far) / gap - images * near / gap)
-                log_f = log_f + np.log1p(images)
-                slope = slope + images_slope / (1.0 + images)
-        if self.z_scale != 1.0:
-            slope = slope / self.z_scale
-        log_f = np.array(log_f)
-        slope = np.array(slope)
-        log_f.flags.writeable = False
-        slope.flags.writeable = False
-        for z, row, row_slope in zip(zs, log_f, slope, strict=True):
-            self.memo[("shape", z, folded)] = row
-            self.memo[("slope", z, folded)] = row_slope
-
-    def log_model(self, theta, folded: bool) -> np.ndarray:
-        key = ("model", tuple(np.ravel(theta).tolist()), folded)
-        found = self.memo.get(key)
-        if found is not None:
-            return found
-        log_c, z = theta[0], theta[1]
-        signal = log_c + self.log_shape(z, folded)
-        value = signal if len(theta) == 2 else np.logaddexp(signal, theta[2] + self._floor_scale())
-        value.flags.writeable = False
-        self.memo[key] = value
-        return value
-
-    def objective(self, theta, folded: bool) -> float:
-        key = ("objective", tuple(np.ravel(theta).tolist()), folded)
-        found = self.memo.get(key)
-        if found is None:
-            log_m = self.log_model(theta, folded)
-            value = np.sum(self.bins.weight * (log_m + self.bins.psd * np.exp(-log_m)))
-            found = self.memo[key] = float(value) if np.isfinite(value) else 1e300
-        return found
-
-    def profiled(self, zs, folded: bool) -> tuple[np.ndarray, np.ndarray]:
-        """Objective with C at its closed-form optimum (no floor), and that ln C, at every z of
-        ``zs``: C = sum_j w_j S_j / F_j / sum_j w_j with F the model shape (the zero of the
-        objective's derivative in C)."""
-        log_f = self.log_shapes(zs, folded)
-        values, log_c = np.full(len(log_f), 1e300), np.zeros(len(log_f))
-        good = np.all(np.isfinite(log_f), axis=1)
-        if good.any():
-            w = self.bins.weight
-            log_c[good] = np.log(np.sum(w * self.bins.psd * np.exp(-log_f[good]), axis=1) / np.sum(w))
-            log_m = log_c[good][:, np.newaxis] + log_f[good]
-            found = np.sum(w * (log_m + self.bins.psd * np.exp(-log_m)), axis=1)
-            values[good] = np.where(np.isfinite(found), found, 1e300)
-        return values, log_c
-
-    def profiled_at(self, z: float, folded: bool) -> tuple[float, float]:
-        """:meth:`profiled` at one z (the same numbers, fewer steps)."""
-        log_f = self.log_shape(z, folded)
-        if not np.isfinite(log_f).all():
-            return 1e300, 0.0
-        weighted_psd, total_weight = self._weighted_psd()
-        log_c = float(np.log(np.sum(weighted_psd * np.exp(-log_f)) / total_weight))
-        return self.objective(np.array([log_c, z]), folded), log_c
-
-    def _weighted_psd(self):
-        if "weighted_psd" not in self.memo:
-            self.memo["weighted_psd"] = (self.bins.weight * self.bins.psd, float(np.sum(self.bins.weight)))
-        return self.memo["weighted_psd"]
-
-    def profiled_slope(self, z: float, folded: bool) -> tuple[float, float]:
-        """Derivative in z of the objective with C at its optimum (no floor), and its curvature.
-
-        With L = ln F, L' its slope and p_j = w_j S_j e^(-L_j) / sum w S e^(-L):
-        dQ/dz = sum_j w_j L'_j - W sum_j p_j L'_j (W = sum w; by the envelope theorem, C being
-        optimal), and the curvature W var_p(L'), exact where L'' = 0 (the plain model) and the
-        data-weighted information otherwise. NaN where the model is undefined.
-        """
-        log_f = self.log_shape(z, folded)
-        if not np.isfinite(log_f).all():
-            return float("nan"), float("nan")
-        slope = self.shape_slope(z, folded)
-        weighted_psd, total_weight = self._weighted_psd()
-        share = weighted_psd * np.exp(-(log_f - log_f.min()))
-        share /= share.sum()
-        mean = float(share @ slope)
-        derivative = float(self.bins.weight @ slope) - total_weight * mean
-        return derivative, total_weight * max(float(share @ (slope * slope)) - mean * mean, 0.0)
-
-    def fit_without_floor(self, bounds, folded: bool) -> np.ndarray:
-        """(ln C, z) minimising the profiled objective: the best point of a grid over the
-        bounds (:meth:`shape_grid`), refined by safeguarded Newton steps on the profiled
-        derivative between its neighbours (:func:`_minimum_between`)."""
-        grid = self.shape_grid(bounds)
-        values = self.profiled(grid, folded)[0]
-        z = _minimum_between(lambda z: self.profiled_slope(z, folded), grid, int(np.argmin(values)),
-                             lambda z: self.profiled_at(z, folded)[0], float(np.min(values)))
-        return np.array([self.profiled_at(z, folded)[1], z])
-
-    @staticmethod
-    def shape_grid(bounds) -> np.ndarray:
-        """17 geometric steps over the bounds where they span more than a factor of 100, else 13
-        even steps."""
-        wide = bounds[0] > 0 and bounds[1] > 100 * bounds[0]
-        return np.geomspace(*bounds, 17) if wide else np.linspace(bounds[0], bounds[1], 13)
-
-    def floor_level(self) -> float:
-        """ln of the median of the top quarter of the band (normalised densities): where the
-        floor's starts and limits are placed."""
-        top = self.bins.psd[self.bins.wavenumber >= np.quantile(self.bins.wavenumber, 0.75)]
-        return float(np.log(np.median(top)))
-
-    def fit_with_floor(self, plain: np.ndarray, bounds, *, start: float) -> np.ndarray:
-        """(ln C, z, ln N0) minimising the objective of the folded model with a floor, by
-        Newton's method (:meth:`newton`) from the fit without a floor, ``plain`` = (ln C, z),
-        and a floor ``start`` (natural log) times the median of the top quarter of the band.
-        ln N0 is kept within 12 below and 3 above that median, z within ``bounds``."""
-        level = self.floor_level()
-        limits = np.array([[-np.inf, np.inf], bounds, [level - 12.0, level + 3.0]])
-        ends, _ = self.newton(np.array([[plain[0], plain[1], level + start]]), limits)
-        return ends[0]
-
-    def newton(self, theta: np.ndarray, limits: np.ndarray, *, iterations: int = 60):
-        """Minimise the objective of the folded model with a floor from several starts at once
-        (rows of ``theta``, parameters (ln C, z, ln N0)), within ``limits`` (one row per
-        parameter).
-
-        Newton's method with the Hessian
-
-            H = sum_j w_j [r_j g_j g_j^T + u_j A_j B_j h_j h_j^T]
-
-        (g = dlnM/dtheta, r = S/M, u = 1 - r, A and B the shares of signal and floor in M,
-        h = (1, L', -1)), which is exact but for the term sum w u A L'' of the shape's own
-        second derivative; where it is not positive definite, the Fisher information
-        sum w g g^T (Fisher scoring). Steps are cut to at most MAX_LOG_STEP in ln C and
-        ln N0 and halved until the objective does not increase; a start stops when the
-        decrease the quadratic model predicts, g'H^-1 g / 2, falls below 1e-12 of the
-        objective, or when no step along the direction lowers it. A floor held at its lower
-        limit is no floor: that start stops there. The shapes of all starts are evaluated in
-        one call per step. Returns the end points and their objectives.
-        """
-        theta = np.clip(np.array(theta, dtype=float), limits[:, 0], limits[:, 1])
-        count = theta.shape[0]
-        weight, psd, floor_scale = self.bins.weight, self.bins.psd, self._floor_scale()
-        values = np.array([self.objective(row, True) for row in theta])
-        active = np.ones(count, dtype=bool)
-        for _ in range(iterations):
-            rows = np.flatnonzero(active)
-            if rows.size == 0:
-                break
-            log_f = self.log_shapes(theta[rows, 1], True)
-            slope = np.array([self.shape_slope(z, True) for z in theta[rows, 1]])
-            signal = theta[rows, 0, np.newaxis] + log_f
-            noise = theta[rows, 2, np.newaxis] + floor_scale
-            log_m = np.logaddexp(signal, noise)
-            share = np.exp(signal - log_m)
-            ratio = psd * np.exp(-log_m)
-            residual = weight * (1.0 - ratio)
-            g = np.stack([share, share * slope, 1.0 - share], axis=1)  # (rows, 3, bins)
-            h = np.stack([np.ones_like(slope), slope, -np.ones_like(slope)], axis=1)
-            gradient = np.einsum("rpj,rj->rp", g, residual)
-            hessian = (np.einsum("rpj,rqj,rj->rpq", g, g, weight * ratio)
-                       + np.einsum("rpj,rqj,rj->rpq", h, h, residual * share * (1.0 - share)))
-            fisher = np.einsum("rpj,rqj,j->rpq", g, g, weight)
-            smallest = np.linalg.eigvalsh(hessian)[:, 0]
-            definite = smallest > 1e-12 * np.abs(hessian).max(axis=(1, 2))
-            hessian[~definite] = fisher[~definite]
-            try:
-                step = np.linalg.solve(hessian, gradient[..., np.newaxis])[..., 0]
-            except np.linalg.LinAlgError:
-                break
-            finished = ~np.all(np.isfinite(step), axis=1)
-            predicted = 0.5 * np.einsum("rp,rp->r", gradient, step)
-            finished |= predicted <= 1e-12 * np.maximum(1.0, np.abs(values[rows]))
-            finished |= theta[rows, 2] <= limits[2, 0]  # a floor at its lower limit is no floor
-            active[rows[finished]] = False
-            rows, step = rows[~finished], step[~finished]
-            scale = np.minimum(1.0, MAX_LOG_STEP / np.maximum(np.abs(step[:, 0]), np.abs(step[:, 2])))
-            pending = np.arange(rows.size)
-            for _halving in range(30):
-                if pending.size == 0:
-                    break
-                trial = np.clip(theta[rows[pending]] - scale[pending, np.newaxis] * step[pending],
-                                limits[:, 0], limits[:, 1])
-                self.log_shapes(trial[:, 1], True)  # every new shape in one call
-                trial_values = np.array([self.objective(row, True) for row in trial])
-                accepted = trial_values <= values[rows[pending]]
-                taken = rows[pending[accepted]]
-                theta[taken], values[taken] = trial[accepted], trial_values[accepted]
-                pending = pending[~accepted]
-                scale[pending] /= 2.0
-            active[rows[pending]] = False  # no decrease along the step: as good as it gets
-        return theta, values
-
-    def _floor_scale(self) -> np.ndarray:
-        if "floor_scale" not in self.memo:
-            self.memo["floor_scale"] = np.log(self.bins.spacing / self.reference_spacing)
-        return self.memo["floor_scale"]
-
-    def gradients(self, theta, folded: bool) -> np.ndarray:
-        """d ln M / d theta at every bin, shape (n_params, n_bins), analytic (the shape's by
-        :meth:`shape_slope`)."""
-        z = theta[1]
-        log_m = self.log_model(theta, folded)
-        signal_share = np.exp(theta[0] + self.log_shape(z, folded) - log_m)
-        rows = [signal_share, signal_share * self.shape_slope(z, folded)]
-        if len(theta) == 3:
-            rows.append(1.0 - signal_share)
-        return np.array(rows)
-
-    def covariance(self, theta, folded: bool) -> np.ndarray:
-        """Sandwich covariance I^-1 J I^-1 of the Whittle estimate: I = sum_j w_j g_j g_j^T
-        (one Fourier bin each), J = sum_j c_j g_j g_j^T with the inflation c of the
-        multitaper estimate (:func:`piece_spectrum`)."""
-        g = self.gradients(theta, folded)
-        information = (g * self.bins.weight) @ g.T
-        score = (g * self.bins.inflation) @ g.T
-        with np.errstate(all="ignore"):
-            try:
-                inverse = np.linalg.inv(information)
-            except np.linalg.LinAlgError:
-                return np.full(information.shape, np.inf)
-        return inverse @ score @ inverse
-
-    def shape_error(self, theta, folded: bool) -> float:
-        variance = self.covariance(theta, folded)[1, 1]
-        return float(np.sqrt(variance)) / self.z_scale if variance > 0 else float("inf")
-
-    def floor_inflation(self, theta) -> float:
-        """Mean inflation over the bins, weighted by the floor's squared score: the factor by
-        which the likelihood ratio for the floor is divided (a first-order correction for the
-        correlated multitaper bins)."""
-        g = self.gradients(theta, True)[2] ** 2
-        return float(np.sum(g * self.bins.inflation) / np.sum(g * self.bins.weight))
-
-
-def _minimum_between(slope, grid: np.ndarray, best: int, value, best_value: float, *,
-                     rtol: float = 1e-6) -> float:
-    """The z minimising a one-dimensional objective near ``grid[best]``, the best grid point.
-
-    ``slope(z)`` gives the objective's derivative and curvature, ``value(z)`` the objective.
-    The minimum is bracketed between the best point and the neighbour where the derivative
-    has the other sign, and found by Newton steps kept inside the bracket, bisecting where a
-    step would leave it or not halve the error fast enough (``rtsafe`` of Press, Teukolsky,
-    Vetterling and Flannery 2007, "Numerical Recipes", 3rd ed., section 9.4, from memory), to
-    within ``rtol`` max(1, |z|). A best point at either end of the grid whose derivative
-    points outwards is the answer (the minimum lies on the bound). Where the derivative gives
-    no bracket, a bounded Brent search of ``value`` between the two neighbours
-    (``scipy.optimize.minimize_scalar``) is used instead. The grid point is kept if the result
-    is not better.
-    """
-    z = float(grid[best])
-    tolerance = rtol * max(1.0, abs(z))
-    derivative, curvature = slope(z)
-    if not np.isfinite(derivative) or derivative == 0.0:
-        return z
-    if (derivative > 0 and best == 0) or (derivative < 0 and best == grid.size - 1):
-        return z
-    neighbour = float(grid[best - 1] if derivative > 0 else grid[best + 1])
-    lo, hi = (neighbour, z) if derivative > 0 else (z, neighbour)
-    bracketed = (slope(neighbour)[0] < 0) if derivative > 0 else (slope(neighbour)[0] > 0)
-    step = previous = hi - lo
-    while bracketed:
-        newton = (curvature > 0
-                  and ((z - hi) * curvature - derivative) * ((z - lo) * curvature - derivative) < 0
-                  and abs(2.0 * derivative) <= abs(previous * curvature))
-        previous = step
-        step = derivative / curvature if newton else z - 0.5 * (lo + hi)
-        z -= step
-        if abs(step) < tolerance:
-            break
-        derivative, curvature = slope(z)
-        if not np.isfinite(derivative):
-            bracketed = False
-        elif derivative < 0:
-            lo = z
-        elif derivative > 0:
-            hi = z
-        else:
-            break
-    if not bracketed:
-        from scipy.optimize import minimize_scalar
-
-        ends = (float(grid[max(best - 1, 0)]), float(grid[min(best + 1, grid.size - 1)]))
-        z = float(minimize_scalar(value, bounds=ends, method="bounded", options={"xatol": tolerance}).x)
-    return z if value(z) <= best_value else float(grid[best])
-
 def fit_falloff(
     values,
     *,
@@ -830,6 +479,12 @@ def fit_falloff(
     """
     if model not in get_args(FalloffKind):
         raise InputError(f"model: {model!r} is not one of {', '.join(get_args(FalloffKind))}")
+    return fit_falloff_spectra(piece_spectra(values, spacing=spacing, nw=nw), model=model, band=band)
+
+
+def piece_spectra(values, *, spacing, nw: float = FIT_NW) -> list[PieceSpectrum]:
+    """:func:`piece_spectrum` of one series or of each of several (with one spacing each),
+    checked as :func:`fit_falloff` needs them: at least :data:`MIN_SAMPLES` samples a piece."""
     if len(values) == 0:
         raise InputError("fall-off: no values given")
     pieces = [values] if np.ndim(values[0]) == 0 else list(values)
@@ -841,7 +496,7 @@ def fit_falloff(
                 f"fall-off: a piece of {np.size(piece)} samples is too short (at least {MIN_SAMPLES})"
             )
         spectra.append(piece_spectrum(piece, spacing=float(dx), nw=nw))
-    return fit_falloff_spectra(spectra, model=model, band=band)
+    return spectra
 
 
 def fit_falloff_spectra(
@@ -852,25 +507,67 @@ def fit_falloff_spectra(
     ``spectra`` are :class:`PieceSpectrum` objects from :func:`piece_spectrum`; see the module
     notes for the fit and :func:`fit_falloff` for ``model`` and ``band``.
     """
+    found = fit_falloff_many([spectra], model=model, band=band)[0]
+    if isinstance(found, InputError):
+        raise found
+    return found
+
+
+#: Problems (segments) fitted together by :func:`fit_falloff_many`: their padded arrays are a
+#: few megabytes at most.
+_BATCH = 32
+
+
+def fit_falloff_many(
+    spectra_sets: Sequence[Sequence], *, model: FalloffKind = "power-law",
+    band: tuple[float, float] | None = None,
+) -> list:
+    """:func:`fit_falloff_spectra` of many sets of piece spectra (e.g. one set per segment),
+    fitted together: every step of the fits is taken for all sets at once
+    (:mod:`profiles.whittle`), and the same numbers come out as for each set alone.
+
+    Returns
+    -------
+    list
+        One :class:`FalloffModel` per set, or the :class:`~profiles.errors.InputError` that
+        set could not be fitted for (too few bins in the band).
+    """
     if model not in get_args(FalloffKind):
         raise InputError(f"model: {model!r} is not one of {', '.join(get_args(FalloffKind))}")
-    bins, moved = _select_bins(spectra, band), []
-    while True:
-        fitted, excess = _fit_bins(bins, model)
-        if band is not None or excess is None or len(moved) == PEAK_ROUNDS:
-            break
-        peak = _highest_peak(*excess)
-        if peak is None:
-            break
+    results: list = [None] * len(spectra_sets)
+    bins, moved = {}, {number: [] for number in range(len(spectra_sets))}
+    for number, spectra in enumerate(spectra_sets):
         try:
-            bins = _select_bins(spectra, band, peak + max(spectrum.resolution for spectrum in spectra))
-        except InputError:  # too few bins above the peak: keep the fit that includes it
-            break
-        moved.append(peak)
-    if moved:
-        fitted = replace(fitted, message=f"{fitted.message}; band starts above the spectral peak at "
-                                          f"{1e-3 / moved[-1]:.4g} km wavelength")
-    return fitted
+            bins[number] = _select_bins(spectra, band)
+        except InputError as error:
+            results[number] = error
+    active = sorted(bins)
+    while active:
+        following = []
+        for first in range(0, len(active), _BATCH):
+            chunk = active[first : first + _BATCH]
+            fits = _fit_bins([bins[n] for n in chunk], model)
+            for number, (fitted, excess) in zip(chunk, fits, strict=True):
+                results[number] = fitted
+                if band is not None or excess is None or len(moved[number]) == PEAK_ROUNDS:
+                    continue
+                peak = _highest_peak(*excess)
+                if peak is None:
+                    continue
+                spectra = spectra_sets[number]
+                try:
+                    bins[number] = _select_bins(spectra, band, peak + max(s.resolution for s in spectra))
+                except InputError:  # too few bins above the peak: keep the fit that includes it
+                    continue
+                moved[number].append(peak)
+                following.append(number)
+        active = following
+    for number, peaks in moved.items():
+        if peaks:
+            fitted = results[number]
+            note = f"; band starts above the spectral peak at {1e-3 / peaks[-1]:.4g} km wavelength"
+            results[number] = replace(fitted, message=fitted.message + note)
+    return results
 
 
 def _highest_peak(wavenumber, ratio, dof, spacing, limit) -> float | None:
@@ -889,90 +586,108 @@ def _highest_peak(wavenumber, ratio, dof, spacing, limit) -> float | None:
     return float(wavenumber[peaks].max()) if peaks.any() else None
 
 
-def _fit_bins(bins: _Bins, model: FalloffKind):
-    """The three fits of the module notes on one set of bins: the model, and (when it falls
-    off) each bin's wavenumber, density over the fitted model, degrees of freedom and
-    spacing, for the peak screen."""
-    weight = bins.weight
-    scale = float(np.exp(np.sum(weight * np.log(bins.psd)) / np.sum(weight)))
-    normalised = replace(bins, psd=bins.psd / scale)
-    k = bins.wavenumber
-    reference_spacing = float(np.min(bins.spacing))
+def _fit_bins(bins_list: Sequence[_Bins], model: FalloffKind) -> list:
+    """The three fits of the module notes on several sets of bins at once
+    (:class:`profiles.whittle.Problems`): for each set the model, and (when it falls off) each
+    bin's wavenumber, density over the fitted model, degrees of freedom and spacing, for the
+    peak screen."""
+    from .whittle import Problems
+
+    problems = Problems(model, *([getattr(b, name) for b in bins_list]
+                                 for name in ("wavenumber", "psd", "spacing", "weight", "inflation")))
+    every = np.arange(len(bins_list))
     if model == "power-law":
-        k_ref = float(np.exp(np.sum(weight * np.log(k)) / np.sum(weight)))
-        z_scale, white_bounds, folded_bounds = 1.0, (-10.0, 20.0), (1.0 + 1e-6, 20.0)
-        drop = np.log(k[-1] / k[0])
+        white_bounds, folded_bounds = (-10.0, 20.0), (1.0 + 1e-6, 20.0)
+        drop = np.log(problems.last / problems.first)
     else:
-        k_ref = float(np.sum(weight * k) / np.sum(weight))
-        z_scale = 4.0 * np.pi * float(k[-1])
         white_bounds, folded_bounds = (-100.0, 400.0), (1e-4, 400.0)
-        drop = (k[-1] - k[0]) / k[-1]
-    problem = _Problem(model, normalised, k_ref, z_scale, reference_spacing)
-    common = {
-        "model": model,
-        "reference_wavenumber": k_ref,
-        "reference_spacing": reference_spacing,
-        "band_min": float(k[0]),
-        "band_max": float(k[-1]),
-        "band_rule": bins.rule,
-        "n_bins": bins.n_bins,
-    }
+        drop = (problems.last - problems.first) / problems.last
 
     # 1. Is there a fall-off at all?
-    straight = problem.fit_without_floor(white_bounds, folded=False)
-    straight_err = problem.shape_error(straight, folded=False)
-    z_err = straight_err * z_scale
-    if not (straight[1] > SIGNIFICANCE_Z * z_err and straight[1] * drop >= np.log(MIN_DROP)):
-        white = FalloffModel(
-            shape=straight[1] / z_scale,
-            shape_err=straight_err,
-            reference_power=float(np.exp(straight[0])) * scale,
-            falls_off=False,
-            message=(
-                f"no significant fall-off over {_band_text(k)}: the spectrum is white "
-                f"(shape {_shape_text(model, straight[1] / z_scale, straight_err)})"
-            ),
+    straight = problems.fit_without_floor(every, white_bounds, folded=False)
+    straight_err = problems.shape_error(every, straight, folded=False)
+    falls = (straight[:, 1] > SIGNIFICANCE_Z * straight_err * problems.z_scale) & (
+        straight[:, 1] * drop >= np.log(MIN_DROP))
+
+    # 2. Folded model, without and with a floor: the next starting floor only for the sets in
+    # which none worth keeping was found.
+    rows = np.flatnonzero(falls)
+    plain = problems.fit_without_floor(rows, folded_bounds, folded=True) if rows.size else np.zeros((0, 2))
+    theta = np.column_stack([plain, np.full(rows.size, -np.inf)])
+    seen = np.zeros(rows.size, dtype=bool)
+    pending = np.arange(rows.size)
+    for start in FLOOR_STARTS:
+        if pending.size == 0:
+            break
+        ends = problems.fit_with_floor(rows[pending], plain[pending], folded_bounds, start=start)
+        ratio = 2.0 * (problems.objective_at(rows[pending], plain[pending], True)
+                       - problems.objective_at(rows[pending], ends, True))
+        ratio /= problems.floor_inflation(rows[pending], ends)
+        kept = ratio > FLOOR_LIKELIHOOD_RATIO
+        theta[pending[kept]], seen[pending[kept]] = ends[kept], True
+        pending = pending[~kept]
+    shape_err = np.empty(rows.size)
+    log_model = np.empty((rows.size, problems.psd.shape[1]))
+    for floor, parameters in ((seen, theta), (~seen, plain)):
+        if floor.any():
+            shape_err[floor] = problems.shape_error(rows[floor], parameters[floor], True)
+            log_f = problems.shapes(rows[floor], parameters[floor, 1], True)[0][:, 0]
+            log_model[floor] = problems.log_model(rows[floor], parameters[floor], log_f)
+
+    results = []
+    folded_row = {int(row): i for i, row in enumerate(rows.tolist())}
+    for number, bins in enumerate(bins_list):
+        k = bins.wavenumber
+        scale, z_scale = float(problems.scale[number]), float(problems.z_scale[number])
+        common = {
+            "model": model,
+            "reference_wavenumber": float(problems.k_ref[number]),
+            "reference_spacing": float(problems.reference_spacing[number]),
+            "band_min": float(k[0]),
+            "band_max": float(k[-1]),
+            "band_rule": bins.rule,
+            "n_bins": bins.n_bins,
+        }
+        if number not in folded_row:
+            shape, error = float(straight[number, 1] / z_scale), float(straight_err[number])
+            results.append((FalloffModel(
+                shape=shape,
+                shape_err=error,
+                reference_power=float(np.exp(straight[number, 0])) * scale,
+                falls_off=False,
+                message=(f"no significant fall-off over {_band_text(k)}: the spectrum is white "
+                         f"(shape {_shape_text(model, shape, error)})"),
+                **common,
+            ), None))
+            continue
+        i = folded_row[number]
+        floor_seen = bool(seen[i])
+        parameters = theta[i] if floor_seen else plain[i]
+        shape, error = float(parameters[1] / z_scale), float(shape_err[i])
+        message = f"{_shape_text(model, shape, error)} over {_band_text(k)}"
+        if model == "power-law" and shape < _SHALLOW:
+            shape, message = 1.0, f"fall-off too shallow for a budget (beta <= 1) over {_band_text(k)}"
+        elif parameters[1] >= folded_bounds[1] * (1 - 1e-6):
+            message += " (at the fit's upper limit: the spectrum falls faster than the model can follow)"
+        fitted = FalloffModel(
+            shape=shape,
+            shape_err=error,
+            reference_power=float(np.exp(parameters[0])) * scale,
+            noise_floor=float(np.exp(parameters[2])) * scale if floor_seen else 0.0,
+            message=message,
             **common,
         )
-        return white, None
-
-    # 2. Folded model, without and with a floor.
-    plain = problem.fit_without_floor(folded_bounds, folded=True)
-    floor_seen = False
-    for start in FLOOR_STARTS:  # the next starting floor only while none is worth keeping
-        with_floor = problem.fit_with_floor(plain, folded_bounds, start=start)
-        ratio = 2.0 * (problem.objective(plain, True) - problem.objective(with_floor, True))
-        ratio /= problem.floor_inflation(with_floor)
-        if ratio > FLOOR_LIKELIHOOD_RATIO:
-            floor_seen = True
-            break
-    theta = with_floor if floor_seen else plain
-    shape, shape_err = theta[1] / z_scale, problem.shape_error(theta, folded=True)
-    noise_floor = float(np.exp(theta[2])) * scale if floor_seen else 0.0
-    message = f"{_shape_text(model, shape, shape_err)} over {_band_text(k)}"
-    if model == "power-law" and shape < _SHALLOW:
-        shape, message = 1.0, f"fall-off too shallow for a budget (beta <= 1) over {_band_text(k)}"
-    elif theta[1] >= folded_bounds[1] * (1 - 1e-6):
-        message += " (at the fit's upper limit: the spectrum falls faster than the model can follow)"
-    fitted = FalloffModel(
-        shape=float(shape),
-        shape_err=float(shape_err),
-        reference_power=float(np.exp(theta[0])) * scale,
-        noise_floor=noise_floor,
-        message=message,
-        **common,
-    )
-    if floor_seen:
-        fitted = replace(
-            fitted,
-            message=message + f"; noise floor reached at {1e-3 / fitted.floor_wavenumber:.4g} km wavelength",
-        )
-    ratio = normalised.psd / np.exp(problem.log_model(theta, True))
-    dof = 2.0 * bins.weight**2 / bins.inflation
-    # Near the floor's corner the fitted sum of two terms bends less sharply than a real
-    # spectrum may: peaks are looked for only below half the corner's wavenumber.
-    limit = 0.5 * fitted.floor_wavenumber if floor_seen else np.inf
-    return fitted, (k, ratio, dof, bins.spacing, limit)
+        if floor_seen:
+            fitted = replace(fitted, message=message + f"; noise floor reached at "
+                                                       f"{1e-3 / fitted.floor_wavenumber:.4g} km wavelength")
+        size = k.size
+        ratio = problems.psd[number, :size] / np.exp(log_model[i, :size])
+        dof = 2.0 * bins.weight**2 / bins.inflation
+        # Near the floor's corner the fitted sum of two terms bends less sharply than a real
+        # spectrum may: peaks are looked for only below half the corner's wavenumber.
+        limit = 0.5 * fitted.floor_wavenumber if floor_seen else np.inf
+        results.append((fitted, (k, ratio, dof, bins.spacing, limit)))
+    return results
 
 
 def _band_text(k: np.ndarray) -> str:

@@ -22,6 +22,7 @@ qualified surveyor.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -29,7 +30,7 @@ import pandas as pd
 
 from .budget import DEFAULT_TOLERANCE, aliased_variance_fraction, contamination, recommended_spacing
 from .errors import InputError
-from .falloff import MIN_SAMPLES, FalloffKind, FalloffModel, fit_falloff
+from .falloff import MIN_SAMPLES, FalloffKind, FalloffModel, fit_falloff_many, piece_spectra
 from .geometry import Segment, Segments
 from .stretches import homogeneous_stretches, stretches_text
 from .tables import clean, records
@@ -419,37 +420,48 @@ def best_sampled(spacing: np.ndarray, n_steps: np.ndarray, *, min_samples: int =
     return long_enough[spacing[long_enough] <= BEST_SAMPLED_FACTOR * finest]
 
 
-def segment_falloff(
-    segment: Segment, field: str, split, *, model: FalloffKind, band
-) -> tuple[FalloffModel | None, np.ndarray, str]:
-    """Fit the fall-off of ``field`` on the best-sampled stretches of ``split``.
+def segment_falloffs(
+    segments: Sequence[Segment], field: str, splits: Sequence, *, model: FalloffKind, band
+) -> list[tuple[FalloffModel | None, np.ndarray, str]]:
+    """Fit the fall-off of ``field`` on the best-sampled stretches of each segment's split.
 
     The station values of each chosen stretch are taken in order as samples at the stretch's
-    mean spacing (its length over its steps) and the pieces are fitted together
-    (:func:`profiles.falloff.fit_falloff`). They are not interpolated onto a grid: linear
-    interpolation between irregular stations averages neighbours and so damps signal and
-    noise towards the Nyquist wavenumber (by up to a factor of three in power on average, and
-    completely halfway between stations), which the fit would read as fall-off. The price is a
-    warp of the distance axis by the local departures from the mean spacing, which moves
+    mean spacing (its length over its steps) and the pieces of a segment are fitted together
+    (:func:`profiles.falloff.fit_falloff`); the fits of all segments run at once
+    (:func:`profiles.falloff.fit_falloff_many`). The pieces are not interpolated onto a grid:
+    linear interpolation between irregular stations averages neighbours and so damps signal
+    and noise towards the Nyquist wavenumber (by up to a factor of three in power on average,
+    and completely halfway between stations), which the fit would read as fall-off. The price
+    is a warp of the distance axis by the local departures from the mean spacing, which moves
     wavenumbers by as much (a few per cent within a homogeneous stretch); for a power law that
     changes the level, not the slope.
 
     Returns
     -------
-    falloff, chosen, problem
-        The model (None when it cannot be fitted), the indices of the stretches used, and
-        the reason when there is no model.
+    list of (falloff, chosen, problem)
+        Per segment: the model (None when it cannot be fitted), the indices of the stretches
+        used, and the reason when there is no model.
     """
-    chosen = best_sampled(split.spacing, split.n_steps)
-    if chosen.size == 0:
-        return None, chosen, f"no stretch has the {MIN_SAMPLES} stations a fall-off fit needs"
-    values = segment.values[field]
-    pieces = [values[split.first[i] : split.last[i] + 1] for i in chosen]
-    spacings = [float((split.end[i] - split.start[i]) / split.n_steps[i]) for i in chosen]
-    try:
-        return fit_falloff(pieces, spacing=spacings, model=model, band=band), chosen, ""
-    except InputError as error:
-        return None, chosen, str(error)
+    found: list = [None] * len(segments)
+    sets, fitted = [], []
+    for number, (segment, split) in enumerate(zip(segments, splits, strict=True)):
+        chosen = best_sampled(split.spacing, split.n_steps)
+        if chosen.size == 0:
+            found[number] = (None, chosen, f"no stretch has the {MIN_SAMPLES} stations a fall-off fit needs")
+            continue
+        values = segment.values[field]
+        pieces = [values[split.first[i] : split.last[i] + 1] for i in chosen]
+        spacings = [float((split.end[i] - split.start[i]) / split.n_steps[i]) for i in chosen]
+        try:
+            sets.append(piece_spectra(pieces, spacing=spacings))
+        except InputError as error:
+            found[number] = (None, chosen, str(error))
+            continue
+        fitted.append((number, chosen))
+    for (number, chosen), falloff in zip(fitted, fit_falloff_many(sets, model=model, band=band), strict=True):
+        failed = isinstance(falloff, InputError)
+        found[number] = (None, chosen, str(falloff)) if failed else (falloff, chosen, "")
+    return found
 
 
 def alias_budget(
@@ -495,8 +507,9 @@ def alias_budget(
             raise InputError(
                 f"field {field!r}: has missing values; read the survey with this field requested"
             )
-        split = homogeneous_stretches(segment.distance)
-        falloff, chosen, problem = segment_falloff(segment, field, split, model=model, band=band)
+    splits = [homogeneous_stretches(segment.distance) for segment in segments]
+    fits = segment_falloffs(list(segments), field, splits, model=model, band=band)
+    for segment, split, (falloff, chosen, problem) in zip(segments, splits, fits, strict=True):
         falloffs[(segment.line, segment.number)] = falloff
         recommendation = None
         if falloff is None:

@@ -13,7 +13,9 @@ import pytest
 from scipy import special
 
 from profiles.budget import PowerLawImageSum
-from profiles.falloff import _Problem, _select_bins, piece_spectrum
+from profiles.errors import InputError
+from profiles.falloff import _select_bins, fit_falloff_many, fit_falloff_spectra, piece_spectrum
+from profiles.whittle import Problems
 
 
 def test_image_sum_matches_the_zeta_closed_form():
@@ -51,15 +53,47 @@ def test_image_sum_and_slope_against_mpmath(beta, c):
 @pytest.mark.parametrize("folded", [False, True])
 def test_shape_slope_is_the_derivative_of_the_log_shape(model, shapes, folded):
     # the fit's analytic d ln F / dz against a central difference of its own log shape
-    # (numerical differentiation: truncation error about 1e-10 relative at this step)
+    # (numerical differentiation: truncation error about 1e-10 relative at this step), for
+    # two problems of different bins at once
     rng = np.random.default_rng(5)
-    values = np.cumsum(np.cumsum(rng.standard_normal(2000)))
-    bins = _select_bins([piece_spectrum(values, spacing=50.0)], None)
-    z_scale = 1.0 if model == "power-law" else 4 * np.pi * float(bins.wavenumber[-1])
-    problem = _Problem(model, bins, float(np.median(bins.wavenumber)), z_scale, 50.0)
+    sets = [_select_bins([piece_spectrum(np.cumsum(np.cumsum(rng.standard_normal(n))), spacing=dx)], None)
+            for n, dx in ((2000, 50.0), (1500, 80.0))]
+    problems = Problems(model, *([getattr(b, name) for b in sets]
+                                 for name in ("wavenumber", "psd", "spacing", "weight", "inflation")))
+    rows = np.arange(2)
     for z in shapes:
         step = 1e-5 * z
-        central = (problem.log_shape(z + step, folded) - problem.log_shape(z - step, folded)) / (2 * step)
-        analytic = problem.shape_slope(z, folded)
-        np.testing.assert_allclose(analytic, central, rtol=1e-6, atol=1e-9 * np.abs(analytic).max())
-        assert not problem.log_shape(z, folded).flags.writeable  # kept rows are read-only
+        zs = np.array([[z - step, z, z + step]] * 2)
+        log_f, slope = problems.shapes(rows, zs, folded)
+        central = (log_f[:, 2] - log_f[:, 0]) / (2 * step)
+        for row, bins in enumerate(sets):
+            size = bins.wavenumber.size
+            np.testing.assert_allclose(slope[row, 1, :size], central[row, :size], rtol=1e-6,
+                                       atol=1e-9 * np.abs(slope[row, 1, :size]).max())
+        # one problem alone gives the same numbers as the pair
+        alone = problems.shapes(rows[1:], zs[1:], folded)[0]
+        np.testing.assert_array_equal(alone[0], log_f[1])
+
+
+def test_many_sets_fitted_together_give_each_set_alone():
+    # fit_falloff_many runs every step of the fits for all sets at once, with the bins of
+    # each padded to the longest: the models must be those of the sets fitted one by one
+    # (the per-set fit is checked against outside references in tests/test_budget.py)
+    rng = np.random.default_rng(21)
+    sets = []
+    for n, dx, floor in ((4000, 50.0, 0.0), (2500, 80.0, 0.3), (6001, 40.0, 0.05), (300, 100.0, 0.0)):
+        walk = np.cumsum(rng.standard_normal(n)) + floor * rng.standard_normal(n) * np.sqrt(n)
+        sets.append([piece_spectrum(walk, spacing=dx)])
+    sets.append([piece_spectrum(rng.standard_normal(3000), spacing=50.0)])  # white: no fall-off
+    sets.append([piece_spectrum(rng.standard_normal(70), spacing=50.0)])  # too few bins
+    for model in ("power-law", "exponential"):
+        together = fit_falloff_many(sets, model=model)
+        for spectra, found in zip(sets, together, strict=True):
+            try:
+                alone = fit_falloff_spectra(spectra, model=model)
+            except InputError as error:
+                assert isinstance(found, InputError) and str(found) == str(error)
+                continue
+            assert found.message == alone.message and found.falls_off == alone.falls_off
+            for name in ("shape", "shape_err", "reference_power", "noise_floor", "reference_wavenumber"):
+                assert getattr(found, name) == pytest.approx(getattr(alone, name), rel=1e-9, abs=1e-300), name
