@@ -256,14 +256,12 @@ def worker_peaks(records) -> list[float]:
 
 
 def cluster_start_and_close() -> float:
-    """Seconds to start and close a 2-worker local cluster (part of every end-to-end run)."""
-    import logging
-
-    from distributed import Client, LocalCluster
+    """Seconds to start and close the batch's local cluster of 2 workers
+    (:func:`profiles.batch.dask_client`; part of every end-to-end run)."""
+    from profiles.batch import dask_client
 
     start = time.perf_counter()
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
-                      silence_logs=logging.ERROR) as cluster, Client(cluster):
+    with dask_client(workers=2, scheduler=None):
         pass
     return time.perf_counter() - start
 

@@ -529,3 +529,33 @@ def test_a_track_across_the_antimeridian_is_cut_there(tmp_path, monkeypatch):
     for part, (layer, geometry) in ((segments, layers["segments"][0]), (windows, layers["windows"][0])):
         _assert_same_for_readers(part, _geopandas_part(layer, geometry, read_part_attrs(part),
                                                        tmp_path / f"ref-{part.parent.name}"))
+
+
+def _worker_environment():
+    import dask
+
+    return {"malloc": os.environ.get("MALLOC_TRIM_THRESHOLD_"), "omp": os.environ.get("OMP_NUM_THREADS"),
+            "tick": dask.config.get("distributed.admin.tick.interval"),
+            "profile": dask.config.get("distributed.worker.profile.enabled")}
+
+
+def test_local_workers_settings_and_no_leak_into_this_process(monkeypatch):
+    # Dask's nanny writes its pre-spawn variables into the parent's environment and leaves them
+    # there (distributed/nanny.py), where the workers of any later cluster started from the same
+    # process inherit them: with Dask's default MALLOC_TRIM_THRESHOLD_ = 65536 that made them
+    # ~1.7x slower (docs/batch.md). Two local clusters in a row: the workers of both run with
+    # the batch's settings, and this process's environment is as it was before each.
+    from profiles.batch import DASK_SPAWN_VARIABLES, LOCAL_WORKER_CONFIG, dask_client
+
+    tick = LOCAL_WORKER_CONFIG["distributed.admin.tick.interval"]
+    for user_threads in (None, "3"):  # a user's own setting is kept, and passed on as Dask does
+        for name in DASK_SPAWN_VARIABLES:
+            monkeypatch.delenv(name, raising=False)
+        if user_threads:
+            monkeypatch.setenv("OMP_NUM_THREADS", user_threads)
+        before = {name: os.environ.get(name) for name in DASK_SPAWN_VARIABLES}
+        for _ in range(2):
+            with dask_client(workers=1, scheduler=None) as client:
+                (found,) = client.run(_worker_environment).values()
+            assert found == {"malloc": None, "omp": user_threads or "1", "tick": tick, "profile": False}
+            assert {name: os.environ.get(name) for name in DASK_SPAWN_VARIABLES} == before
