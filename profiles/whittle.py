@@ -70,14 +70,12 @@ class Problems:
         if model == "power-law":
             self.k_ref = np.exp(np.sum(self.weight * np.log(k), axis=1) / self.total_weight)
             self.z_scale = np.ones(self.count)
-            self.distance = np.log(k / self.k_ref[:, np.newaxis])  # ln F = -shape * this
-            self.rate = self.distance  # -d ln F / d shape
+            self.rate = np.log(k / self.k_ref[:, np.newaxis])  # ln F = -shape * rate
             self.images = PowerLawImageSum(k * self.spacing)
         else:
             self.k_ref = np.sum(self.weight * k, axis=1) / self.total_weight
             self.z_scale = 4.0 * np.pi * last
-            self.distance = k - self.k_ref[:, np.newaxis]
-            self.rate = 4.0 * np.pi * self.distance
+            self.rate = 4.0 * np.pi * (k - self.k_ref[:, np.newaxis])  # ln F = -shape * rate
             self.images = 4.0 * np.pi / self.spacing  # u = this * h
         self.first, self.last = k[:, 0], last
         masked = np.where(self.weight > 0, self.spacing, np.inf)

@@ -288,6 +288,19 @@ def test_text_far_down_a_column_of_numbers(tmp_path):
 
 
 
+
+def _spy_on_read_csv(monkeypatch) -> list:
+    """What the reader gives ``pandas.read_csv`` as its source, call by call."""
+    sources = []
+    parse = pd.read_csv
+
+    def spy(source, **options):
+        sources.append(source)
+        return parse(source, **options)
+
+    monkeypatch.setattr("profiles.textfile.pd.read_csv", spy)
+    return sources
+
 @pytest.mark.parametrize(
     "preamble",
     [[], [""], ["# survey KR-03", ""], ["", "  ", "# a comment, with commas, and: colons", "sep=,"],
@@ -299,14 +312,7 @@ def test_preamble_lines_are_skipped_when_the_parser_reads_the_file(tmp_path, pre
     # reference: the csv module's rows below the header.
     rows = _rows(30)
     path = _write(tmp_path, "preamble.csv", [*preamble, HEADER, *rows])
-    sources = []
-    parse = pd.read_csv
-
-    def spy(source, **options):
-        sources.append(source)
-        return parse(source, **options)
-
-    monkeypatch.setattr("profiles.textfile.pd.read_csv", spy)
+    sources = _spy_on_read_csv(monkeypatch)
     raw = read_text(path)
     monkeypatch.undo()
     assert raw.cells is not None and sources == [str(path)]  # the fast path, from the file
@@ -323,14 +329,7 @@ def test_a_quote_before_the_header_keeps_the_parser_off_the_file(tmp_path, monke
     # skips otherwise than the reader: the body is then given to it from memory. Outside
     # reference: the careful path gives the same survey.
     path = _write(tmp_path, "quoted_comment.csv", ['# the "KR" survey', HEADER, *_rows(20)])
-    sources = []
-    parse = pd.read_csv
-
-    def spy(source, **options):
-        sources.append(source)
-        return parse(source, **options)
-
-    monkeypatch.setattr("profiles.textfile.pd.read_csv", spy)
+    sources = _spy_on_read_csv(monkeypatch)
     assert read_text(path).cells is not None
     monkeypatch.undo()
     assert len(sources) == 1 and not isinstance(sources[0], str)
