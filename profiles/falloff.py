@@ -513,9 +513,10 @@ def fit_falloff_spectra(
     return found
 
 
-#: Problems (segments) fitted together by :func:`fit_falloff_many`: their padded arrays are a
-#: few megabytes at most.
-_BATCH = 32
+#: Problems (segments) fitted together by :func:`fit_falloff_many`. The grid of the folded
+#: fit holds 17 shapes x 20 image terms per bin of every problem: for 16 problems of 300 bins,
+#: 13 MB an array, and a few such arrays at once.
+_BATCH = 16
 
 
 def fit_falloff_many(
