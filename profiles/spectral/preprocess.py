@@ -141,7 +141,6 @@ def check_finite(array: np.ndarray, *, what: str = "values") -> None:
         )
 
 
-@lru_cache(maxsize=16)
 def fast_length(count: int) -> int:
     """The smallest length >= ``count`` whose only prime factors are 2, 3 and 5.
 
@@ -169,6 +168,7 @@ def fast_length(count: int) -> int:
     return best
 
 
+@lru_cache(maxsize=16)
 def _centred_index(count: int) -> np.ndarray:
     """Sample index minus its mean, ``j - (N - 1)/2``; cached and read-only."""
     index = np.arange(count, dtype=np.float64) - (count - 1) / 2.0

@@ -251,3 +251,12 @@ def test_red_noise_test_uses_the_same_lag1():
     result = red_noise_test(series, spacing=50.0)
     np.testing.assert_allclose(result.lag1, lag1_autocorrelation(series, estimator="corrected"),
                                rtol=1e-12)
+
+
+def test_centred_index_is_kept_and_read_only():
+    # c_j = j - (N - 1)/2, built once per N (the windows and harmonics ask for it per call)
+    from profiles.spectral.preprocess import centred_index
+
+    first = centred_index(9)
+    np.testing.assert_array_equal(first, np.arange(9) - 4.0)
+    assert centred_index(9) is first and not first.flags.writeable
